@@ -1,0 +1,15 @@
+#!/usr/bin/env bash
+# Fresh machine to results: set up .venv, build the invented sample scenario, assess it.
+set -euo pipefail
+ROOT="$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)"
+cd "$ROOT"
+bash scripts/setup_env.sh test
+VPY="$ROOT/.venv/bin/python"
+if [ ! -f sample_gis/dem.tif ] || [ ! -f sample_gis/sections.csv ]; then
+    "$VPY" scripts/make_sample_data.py --out sample_gis
+fi
+mkdir -p results
+"$ROOT/.venv/bin/trajectory" assess \
+    --centreline sample_gis/levee.gpkg --dem sample_gis/dem.tif \
+    --conditions sample_gis/sections.csv --out results/results.gpkg --overwrite "$@"
+echo "Results: results/results.gpkg and results/results.csv"

@@ -1,0 +1,97 @@
+"""Write an assessment result as a GeoPackage (the layers of the output contract)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+import pyogrio
+import shapely
+from shapely.ops import substring
+
+from ..status import station_extents
+from .atomic import atomic_path
+from .schema import LAYERS, field_names
+
+
+def _frame(data: dict, layer: str, geometry, crs) -> gpd.GeoDataFrame:
+    cols = field_names(layer)
+    return gpd.GeoDataFrame({c: data[c] for c in cols}, geometry=geometry, crs=crs)
+
+
+def station_layer(result) -> gpd.GeoDataFrame:
+    t = result.stations
+    geom = shapely.points(t["x"].to_numpy(), t["y"].to_numpy())
+    return _frame({c: t[c].to_numpy() for c in t.columns}, "stations", geom, result.crs)
+
+
+def cross_section_layer(result) -> gpd.GeoDataFrame:
+    t = result.stations
+    hw = float(result.offsets[-1])
+    x, y, nx, ny = (t[c].to_numpy() for c in ("x", "y", "nx", "ny"))
+    coords = np.stack([np.stack([x - hw * nx, y - hw * ny], 1),
+                       np.stack([x + hw * nx, y + hw * ny], 1)], 1)
+    geom = shapely.linestrings(coords)
+    data = {c: t[c].to_numpy() for c in t.columns}
+    data["half_width"] = np.full(len(t), hw)
+    return _frame(data, "cross_sections", geom, result.crs)
+
+
+def crest_line_layer(result) -> gpd.GeoDataFrame:
+    """The measured crest as 3-D lines, one per run of readable stations."""
+    t = result.stations
+    ok = np.isfinite(t["crest_level"].to_numpy())
+    brk = np.flatnonzero(np.diff(ok.astype(int)) != 0) + 1
+    runs = [r for r in np.split(np.arange(len(t)), brk) if r.size >= 2 and ok[r[0]]]
+    geoms, fr, to = [], [], []
+    for r in runs:
+        xyz = np.stack([t["crest_x"].to_numpy()[r], t["crest_y"].to_numpy()[r],
+                        t["crest_level"].to_numpy()[r]], 1)
+        geoms.append(shapely.linestrings(xyz))
+        fr.append(t["chainage"].iloc[r[0]])
+        to.append(t["chainage"].iloc[r[-1]])
+    return _frame({"from_chainage": fr, "to_chainage": to}, "crest_line", geoms, result.crs)
+
+
+def stretch_layer(result, *, start: float, reverse: bool) -> gpd.GeoDataFrame:
+    s = result.stretches
+    line = result.line
+    length = line.length
+
+    def along(c):
+        d = c - start
+        return length - d if reverse else d
+
+    geoms = []
+    for a, b in zip(s.from_chainage, s.to_chainage):
+        lo, hi = sorted((along(a), along(b)))
+        geoms.append(substring(line, float(lo), float(hi)))
+    data = {"from_chainage": s.from_chainage, "to_chainage": s.to_chainage,
+            "length": s.length, "status": s.status, "worst_margin": s.worst_margin,
+            "worst_chainage": s.worst_chainage, "stations": s.last - s.first + 1}
+    return _frame(data, "stretches", geoms, result.crs)
+
+
+def metadata_table(result) -> pd.DataFrame:
+    items = sorted(result.metadata.items())
+    return pd.DataFrame({"key": [k for k, _ in items], "value": [str(v) for _, v in items]})
+
+
+def write_geopackage(result, path: str | Path, *, overwrite: bool = False) -> Path:
+    """Write every contract layer to ``path`` atomically (temp file, then rename)."""
+    start = float(result.metadata.get("param_start_chainage", 0.0))
+    reverse = bool(result.metadata.get("param_reverse", False))
+    layers = {
+        "stations": station_layer(result),
+        "cross_sections": cross_section_layer(result),
+        "crest_line": crest_line_layer(result),
+        "stretches": stretch_layer(result, start=start, reverse=reverse),
+        "run_metadata": metadata_table(result),
+    }
+    assert set(layers) == set(LAYERS)
+    with atomic_path(path, overwrite=overwrite) as tmp:
+        for name, frame in layers.items():
+            pyogrio.write_dataframe(frame, tmp, layer=name, driver="GPKG")
+    return Path(path)

@@ -1,0 +1,173 @@
+"""Every run parameter, declared once.
+
+:class:`Settings` is the single source of truth: each field carries its unit,
+range, choices and help text in its metadata. The command line, the TOML run
+file and the desktop-GIS processing tool are all generated from this table, so
+they cannot disagree. Validation lives here too, so a script calling the library
+gets the same checks as the command line.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import tomllib
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from .errors import ParameterError
+
+
+def _p(
+    default: Any,
+    help: str,
+    *,
+    unit: str = "",
+    min: float | None = None,
+    max: float | None = None,
+    min_exclusive: bool = False,
+    choices: tuple[str, ...] | None = None,
+    group: str = "geometry",
+) -> Any:
+    """Declare one parameter: its default and the metadata the front ends read."""
+    meta = {
+        "help": help,
+        "unit": unit,
+        "min": min,
+        "max": max,
+        "min_exclusive": min_exclusive,
+        "choices": choices,
+        "group": group,
+    }
+    return field(default=default, metadata=meta)
+
+
+@dataclass(frozen=True)
+class Settings:
+    """Run parameters of an assessment (units in each field's metadata)."""
+
+    # --- stations and cross-sections
+    spacing: float = _p(25.0, "Distance between stations along the centreline.",
+                        unit="m", min=0.0, min_exclusive=True, max=10000.0)
+    start_chainage: float = _p(0.0, "Chainage of the first point of the centreline.",
+                               unit="m", min=-1e9, max=1e9)
+    reverse: bool = _p(False, "Run chainage against the digitised direction of the line.")
+    half_width: float = _p(50.0, "Length of each cross-section on either side of the centreline.",
+                           unit="m", min=0.0, min_exclusive=True, max=2000.0)
+    sample_step: float = _p(0.0, "Spacing of samples along a cross-section; 0 = the DEM cell size.",
+                            unit="m", min=0.0, max=50.0)
+    smooth_length: float = _p(10.0, "Length over which the line's tangent is smoothed for the "
+                              "section normals (about two crest widths).",
+                              unit="m", min=0.0, max=1000.0)
+    water_side: str = _p("left", "Side of the water (outer side) relative to the line's "
+                         "digitised direction; a `water_side` column in the conditions wins.",
+                         choices=("left", "right"))
+    # --- reading a profile
+    object_width: float = _p(1.0, "Objects on the crest narrower than this (posts, fences) are "
+                             "ignored when reading the crest level.",
+                             unit="m", min=0.0, max=20.0, group="profile")
+    crest_search: float = _p(15.0, "The crest must lie within this distance of the centreline.",
+                             unit="m", min=0.0, min_exclusive=True, max=500.0, group="profile")
+    crest_tolerance: float = _p(0.10, "Cells within this height of the crest top belong to the "
+                                "crest (raised automatically to 3x the profile's noise).",
+                                unit="m", min=0.0, min_exclusive=True, max=2.0, group="profile")
+    max_nodata: float = _p(0.5, "Profiles with a larger fraction of nodata samples are no_data.",
+                           unit="fraction", min=0.0, max=1.0, group="profile")
+    # --- required level
+    approach: str = _p("design", "EurOtop (2018) approach: 'design' (design or assessment, "
+                       "default) or 'mean' (mean value).",
+                       choices=("design", "mean"), group="requirement")
+    watch_band: float = _p(0.10, "Margins from 0 up to this value are 'watch' rather than 'ok'.",
+                           unit="m", min=0.0, max=5.0, group="requirement")
+    # --- execution
+    chunk_size: int = _p(64, "Stations processed together in one chunk (bounds memory).",
+                         unit="stations", min=1, max=100000, group="execution")
+    workers: int = _p(1, "Worker processes; 1 = serial, 0 = all cores.",
+                      unit="processes", min=0, max=1024, group="execution")
+
+    def __post_init__(self) -> None:
+        problems = validate_values(dataclasses.asdict(self))
+        if problems:
+            raise ParameterError("; ".join(problems))
+
+    # ------------------------------------------------------------------ helpers
+    @classmethod
+    def from_mapping(cls, values: dict[str, Any], *, source: str = "parameters") -> Settings:
+        """Build settings from a mapping (e.g. a run file), rejecting unknown keys."""
+        known = {f.name: f for f in dataclasses.fields(cls)}
+        unknown = sorted(set(values) - set(known))
+        if unknown:
+            raise ParameterError(
+                f"{source}: unknown parameter(s) {', '.join(unknown)}; "
+                f"known are: {', '.join(sorted(known))}"
+            )
+        coerced = {k: _coerce(known[k], v, source) for k, v in values.items()}
+        return cls(**coerced)
+
+    def replace(self, **changes: Any) -> Settings:
+        return dataclasses.replace(self, **changes)
+
+
+def parameter_table() -> list[dict[str, Any]]:
+    """The parameter table as plain records (name, type, default, unit, range, help)."""
+    rows = []
+    for f in dataclasses.fields(Settings):
+        rows.append({"name": f.name, "type": _type_name(f), "default": f.default, **f.metadata})
+    return rows
+
+
+def load_run_file(path: str | Path) -> dict[str, Any]:
+    """Read a TOML run file; parameters at top level or under ``[parameters]``."""
+    p = Path(path)
+    try:
+        with p.open("rb") as fh:
+            data = tomllib.load(fh)
+    except FileNotFoundError as exc:
+        raise ParameterError(f"{p}: run file not found") from exc
+    except tomllib.TOMLDecodeError as exc:
+        raise ParameterError(f"{p}: not valid TOML ({exc})") from exc
+    return dict(data.get("parameters", data))
+
+
+def validate_values(values: dict[str, Any]) -> list[str]:
+    """Check every value against its declared range and choices; return all findings."""
+    problems = []
+    for f in dataclasses.fields(Settings):
+        v = values.get(f.name, f.default)
+        m = f.metadata
+        if m["choices"] is not None:
+            if v not in m["choices"]:
+                problems.append(f"{f.name} must be one of {', '.join(m['choices'])}, got {v!r}")
+            continue
+        if isinstance(f.default, bool):
+            continue
+        lo, hi = m["min"], m["max"]
+        unit = f" {m['unit']}" if m["unit"] else ""
+        if lo is not None and (v < lo or (m["min_exclusive"] and v == lo)):
+            rel = ">" if m["min_exclusive"] else ">="
+            problems.append(f"{f.name} must be {rel} {lo}{unit}, got {v}")
+        if hi is not None and v > hi:
+            problems.append(f"{f.name} must be <= {hi}{unit}, got {v}")
+    return problems
+
+
+def _type_name(f: dataclasses.Field) -> str:
+    return type(f.default).__name__
+
+
+def _coerce(f: dataclasses.Field, v: Any, source: str) -> Any:
+    kind = type(f.default)
+    try:
+        if kind is bool:
+            if isinstance(v, str):
+                if v.lower() in ("true", "yes", "1"):
+                    return True
+                if v.lower() in ("false", "no", "0"):
+                    return False
+                raise ValueError(v)
+            return bool(v)
+        return kind(v)
+    except (TypeError, ValueError) as exc:
+        raise ParameterError(
+            f"{source}: parameter {f.name} must be a {kind.__name__}, got {v!r}"
+        ) from exc

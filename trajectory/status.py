@@ -1,0 +1,72 @@
+"""Margin, status per station, and stretches of one status."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+#: station statuses, in order of severity (the public values of `status`)
+STATUSES = ("ok", "watch", "deficit", "no_data")
+
+
+def classify(margin: np.ndarray, *, watch_band: float) -> np.ndarray:
+    """Status per station: ok (margin >= band), watch (0 <= margin < band), deficit, no_data."""
+    m = np.asarray(margin, dtype=float)
+    out = np.full(m.shape, "no_data", dtype=object)
+    out[m >= watch_band] = "ok"
+    out[(m >= 0) & (m < watch_band)] = "watch"
+    out[m < 0] = "deficit"
+    return out
+
+
+@dataclass(frozen=True)
+class Stretches:
+    """Runs of consecutive stations of one status (columnar)."""
+
+    first: np.ndarray   # index of the first station of each stretch
+    last: np.ndarray    # index of the last station (inclusive)
+    status: np.ndarray
+    from_chainage: np.ndarray
+    to_chainage: np.ndarray
+    worst_margin: np.ndarray
+    worst_chainage: np.ndarray
+
+    @property
+    def length(self) -> np.ndarray:
+        return self.to_chainage - self.from_chainage
+
+
+def station_extents(chainage: np.ndarray, start: float, end: float) -> tuple[np.ndarray, np.ndarray]:
+    """Chainage interval each station represents: halfway to its neighbours."""
+    c = np.asarray(chainage, float)
+    mid = 0.5 * (c[1:] + c[:-1])
+    lo = np.concatenate([[start], mid])
+    hi = np.concatenate([mid, [end]])
+    return lo, hi
+
+
+def merge_stretches(
+    chainage: np.ndarray, status: np.ndarray, margin: np.ndarray, *,
+    start: float, end: float,
+) -> Stretches:
+    """Merge consecutive stations of one status into stretches.
+
+    Each station stands for the chainage halfway to its neighbours, so the
+    stretches tile ``start``-``end`` without gaps.
+    """
+    st = np.asarray(status, dtype=object)
+    n = st.size
+    if n == 0:
+        e = np.array([], dtype=float)
+        return Stretches(np.array([], int), np.array([], int), np.array([], object), e, e, e, e)
+    brk = np.flatnonzero(st[1:] != st[:-1]) + 1
+    first = np.concatenate([[0], brk])
+    last = np.concatenate([brk - 1, [n - 1]])
+    lo, hi = station_extents(chainage, start, end)
+    m = np.where(np.isnan(margin), np.inf, margin)
+    worst_idx = np.array([f + int(np.argmin(m[f:l + 1])) for f, l in zip(first, last)])
+    worst = np.asarray(margin, float)[worst_idx]
+    return Stretches(first=first, last=last, status=st[first], from_chainage=lo[first],
+                     to_chainage=hi[last], worst_margin=worst,
+                     worst_chainage=np.asarray(chainage, float)[worst_idx])
