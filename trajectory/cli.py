@@ -46,6 +46,8 @@ def _settings_options(fn: Callable) -> Callable:
 def _setup_logging(quiet: bool, debug: bool) -> None:
     level = logging.DEBUG if debug else (logging.WARNING if quiet else logging.INFO)
     logging.basicConfig(level=level, format="%(levelname)s: %(message)s", stream=sys.stderr)
+    # GDAL's writer logs every layer at INFO; keep ours readable
+    logging.getLogger("pyogrio").setLevel(logging.WARNING)
 
 
 def _build_settings(config: str | None, given: dict[str, Any]) -> Settings:

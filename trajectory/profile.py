@@ -17,9 +17,10 @@ Definitions (documented in the README):
 - toe: going down from a crest edge, the first point where the ground is
   flatter than 1:``TOE_COT`` and falls less than ``TOE_DROP`` over the next
   ``TOE_LOOKAHEAD`` metres (a berm, which is followed by more slope, is not a toe);
-- slope: least-squares line through the samples between edge and toe, leaving
-  out the top and bottom 10 % of the height; reported as n of a 1:n slope, with
-  the fit's root-mean-square residual as a quality figure.
+- slope: least-squares line through the samples from the edge down to the first
+  flat part (a berm or the toe), leaving out the top and bottom 10 % of that
+  height; reported as n of a 1:n slope, with the fit's root-mean-square residual
+  as a quality figure.
 """
 
 from __future__ import annotations
@@ -35,6 +36,8 @@ TOE_COT = 12.0
 TOE_DROP = 0.5
 #: ... over this distance (m) beyond a flat point has reached the toe
 TOE_LOOKAHEAD = 15.0
+#: a flat part counts as a berm only this far (m) below the crest
+BERM_MIN_DROP = 0.5
 #: part of the edge-to-toe height left out at each end of the slope fit
 FIT_TRIM = 0.10
 
@@ -110,6 +113,28 @@ def robust_noise(z: np.ndarray, step: float) -> np.ndarray:
     return 1.4826 * mad / np.sqrt(6.0)
 
 
+def remove_objects(z: np.ndarray, step: float, *, object_width: float,
+                   noise: np.ndarray) -> np.ndarray:
+    """Remove objects narrower than ``object_width`` standing on the ground.
+
+    A grey opening (running minimum then maximum) over ``object_width`` plus one
+    cell each side (the bilinear blur) erases every peak narrower than that and
+    keeps wider shapes; cells rising clearly above the opening (by 0.25 m or four
+    times the noise) are objects and are replaced by the
+    ground under them as the opening estimates it. Other cells keep their measured
+    value, so noise is not biased.
+    """
+    if object_width <= 0:
+        return z
+    k = int(np.ceil(object_width / step)) + 2
+    opened = ndimage.grey_opening(z, size=(1, k), mode="nearest")
+    thr = np.maximum(0.25, 4.0 * np.nan_to_num(noise, nan=0.0))[:, None]
+    obj = (z - opened) > thr
+    # widen by one cell: the flanks of an object are blurred by the sampling too
+    obj = ndimage.binary_dilation(obj, structure=np.ones((1, 3), bool))
+    return np.where(obj, opened, z)
+
+
 def _run_around(mask: np.ndarray, centre: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """First and last index of the True-run of ``mask`` containing ``centre`` per row."""
     n, m = mask.shape
@@ -152,11 +177,17 @@ def _slope_side(s: np.ndarray, crest: np.ndarray, step: float) -> dict[str, np.n
     last_valid = k - 1 - np.argmax(~beyond[:, ::-1], axis=1)
     toe = np.where(has_toe, first_flat, last_valid)
     toe_level = np.take_along_axis(s, toe[:, None], 1)[:, 0]
-    height = crest - toe_level
+    # the slope is fitted from the edge down to the first flat part (a berm or the
+    # toe): the upper slope, which governs run-up and overtopping
+    any_flat = (-grad < 1.0 / TOE_COT) & (s < (crest - BERM_MIN_DROP)[:, None])
+    seg_end = np.where(any_flat.any(axis=1), np.argmax(any_flat, axis=1), toe)
+    seg_end = np.minimum(seg_end, toe)
+    seg_level = np.take_along_axis(s, seg_end[:, None], 1)[:, 0]
+    height = crest - seg_level
     hi = crest - FIT_TRIM * height
-    lo = toe_level + FIT_TRIM * height
+    lo = seg_level + FIT_TRIM * height
     kk = np.arange(k)[None, :]
-    w = ((kk <= toe[:, None]) & (s <= hi[:, None]) & (s >= lo[:, None])).astype(float)
+    w = ((kk <= seg_end[:, None]) & (s <= hi[:, None]) & (s >= lo[:, None])).astype(float)
     w[np.isnan(s)] = 0.0
     sv = np.nan_to_num(s)
     cnt = w.sum(1)
@@ -186,9 +217,10 @@ def read_profiles(
     filled = fill_gaps(z)
     empty = np.isnan(filled).all(axis=1)
     filled[empty] = 0.0
-    win = 2 * int(np.ceil(object_width / step)) + 1
-    d = ndimage.median_filter(filled, size=(1, win), mode="nearest") if win > 1 else filled
     noise = robust_noise(filled, step)
+    clean = remove_objects(filled, step, object_width=object_width, noise=noise)
+    # a light running median steadies the search for the top and the crest's extent
+    d = ndimage.median_filter(clean, size=(1, 3), mode="nearest")
 
     zone = np.abs(offsets) <= crest_search
     dz = np.where(zone[None, :], d, -np.inf)
@@ -200,7 +232,7 @@ def read_profiles(
     j = np.arange(m)[None, :]
     in_crest = (j >= lo[:, None]) & (j <= hi[:, None])
     cells = in_crest.sum(1)
-    crest_level = np.where(in_crest, d, 0.0).sum(1) / cells
+    crest_level = np.where(in_crest, clean, 0.0).sum(1) / cells
     zone_j = np.flatnonzero(zone)
     off_centre = (lo <= zone_j[0]) | (hi >= zone_j[-1])
 

@@ -104,3 +104,21 @@ def markdown_table(layer: str) -> str:
     rows = ["| field | unit | meaning |", "|---|---|---|"]
     rows += [f"| `{f.name}` | {f.unit} | {f.description} |" for f in LAYERS[layer][1]]
     return "\n".join(rows)
+
+
+def refresh_readme(text: str) -> str:
+    """Rewrite the field tables between ``<!-- fields:LAYER -->`` and ``<!-- /fields -->``."""
+    import re
+
+    def table(match: re.Match) -> str:
+        return f"<!-- fields:{match[1]} -->\n{markdown_table(match[1])}\n<!-- /fields -->"
+
+    return re.sub(r"<!-- fields:(\w+) -->.*?<!-- /fields -->", table, text, flags=re.S)
+
+
+if __name__ == "__main__":  # python -m trajectory.outputs.schema README.md
+    import sys
+    from pathlib import Path
+
+    p = Path(sys.argv[1])
+    p.write_text(refresh_readme(p.read_text(encoding="utf-8")), encoding="utf-8")

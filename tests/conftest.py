@@ -1,0 +1,31 @@
+"""Shared fixtures: the invented demo scenario, generated once per test session."""
+
+from __future__ import annotations
+
+import json
+
+import pytest
+
+from trajectory.synthetic import LeveeSpec, make_centreline, write_scenario
+
+
+@pytest.fixture(scope="session")
+def demo(tmp_path_factory):
+    """The full demo scenario (3 km, one epoch) with its planted truth."""
+    out = tmp_path_factory.mktemp("demo")
+    spec = LeveeSpec()
+    paths = write_scenario(out, spec=spec, centreline=make_centreline(spec.length_m),
+                           epochs=False)
+    paths["truth_data"] = json.loads(paths["truth"].read_text())
+    return paths
+
+
+@pytest.fixture(scope="session")
+def demo_result(demo, tmp_path_factory):
+    """The demo assessed once with default settings, written to a GeoPackage."""
+    from trajectory.assess import RunInputs, assess
+
+    out = tmp_path_factory.mktemp("demo_out") / "results.gpkg"
+    result = assess(RunInputs(str(demo["centreline"]), str(demo["dem"]),
+                              str(demo["sections"])), out)
+    return result, out
