@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from trajectory.profile import FLAGS, fill_gaps, read_profiles
+from trajectory.profile import FLAGS, fill_gaps, masked_line_fit, read_profiles
 
 STEP = 0.5
 OFF = np.arange(-100, 101) * STEP
@@ -70,3 +70,22 @@ def test_nodata_gaps_are_filled_and_flagged_and_empty_is_no_data():
 def test_fill_gaps_linear():
     z = np.array([[1.0, np.nan, 3.0, np.nan, np.nan, 6.0, np.nan]])
     assert fill_gaps(z)[0].tolist() == [1.0, 2.0, 3.0, 4.0, 5.0, 6.0, 6.0]
+
+
+def test_masked_line_fit_matches_scipy_linregress():
+    # reference: scipy.stats.linregress (OLS gradient, intercept and gradient's std error)
+    from scipy.stats import linregress
+
+    rng = np.random.default_rng(3)
+    x = np.arange(60) * STEP
+    z = 6.0 - x[None, :] / 3.0 + rng.normal(0, 0.05, (20, x.size))
+    w = (rng.uniform(size=z.shape) < 0.6).astype(float)
+    a, b, res, se_b, cnt = masked_line_fit(x, z, w)
+    for r in range(20):
+        sel = w[r] > 0
+        ref = linregress(x[sel], z[r, sel])
+        assert b[r] == pytest.approx(ref.slope, rel=1e-9)
+        assert a[r] == pytest.approx(ref.intercept, rel=1e-9)
+        assert se_b[r] == pytest.approx(ref.stderr, rel=1e-9)
+    m = read_profiles(trapezoid()[None, :] + rng.normal(0, 0.05, (1, OFF.size)), OFF, **KW)
+    assert m.outer_fit_count[0] >= 10 and 0 < m.outer_slope_se[0] < 0.2

@@ -73,6 +73,8 @@ class ProfileMetrics:
     inner_slope: np.ndarray
     outer_fit_rmse: np.ndarray
     inner_fit_rmse: np.ndarray
+    outer_slope_se: np.ndarray   # standard error of n from the least-squares fit
+    outer_fit_count: np.ndarray  # samples used by the outer slope fit
     crest_cells: np.ndarray      # samples making up the crest estimate
     noise: np.ndarray            # robust noise estimate of the profile (m)
     nodata_fraction: np.ndarray
@@ -157,6 +159,31 @@ def _side(d: np.ndarray, start: np.ndarray, direction: int, length: int) -> np.n
     return np.where(ok, vals, np.nan)
 
 
+def masked_line_fit(x: np.ndarray, z: np.ndarray, w: np.ndarray
+                    ) -> tuple[np.ndarray, ...]:
+    """Ordinary least-squares line z = a + b x per row over the samples where w = 1.
+
+    Returns intercept, gradient, RMS residual, standard error of the gradient
+    and the sample count (rows with fewer than 3 samples give NaN).
+    """
+    zv = np.nan_to_num(z)
+    cnt = w.sum(1)
+    sx = (w * x).sum(1)
+    sz = (w * zv).sum(1)
+    sxx = (w * x**2).sum(1)
+    sxz = (w * x * zv).sum(1)
+    with np.errstate(all="ignore"):
+        den = cnt * sxx - sx**2
+        b = (cnt * sxz - sx * sz) / den
+        a = (sz - b * sx) / cnt
+        res = np.sqrt((w * (zv - a[:, None] - b[:, None] * x) ** 2).sum(1) / cnt)
+        sxx_c = sxx - sx**2 / cnt
+        se_b = np.sqrt(res**2 * cnt / (cnt - 2) / sxx_c)
+    few = cnt < 3
+    return (np.where(few, np.nan, a), np.where(few, np.nan, b), np.where(few, np.nan, res),
+            np.where(few, np.nan, se_b), cnt)
+
+
 def _slope_side(s: np.ndarray, crest: np.ndarray, step: float) -> dict[str, np.ndarray]:
     """Toe and fitted slope on one side; ``s`` runs from the crest edge outward."""
     n, k = s.shape
@@ -189,21 +216,13 @@ def _slope_side(s: np.ndarray, crest: np.ndarray, step: float) -> dict[str, np.n
     kk = np.arange(k)[None, :]
     w = ((kk <= seg_end[:, None]) & (s <= hi[:, None]) & (s >= lo[:, None])).astype(float)
     w[np.isnan(s)] = 0.0
-    sv = np.nan_to_num(s)
-    cnt = w.sum(1)
-    sx = (w * dist).sum(1)
-    sz = (w * sv).sum(1)
-    sxx = (w * dist**2).sum(1)
-    sxz = (w * dist * sv).sum(1)
+    a, b, res, se_b, cnt = masked_line_fit(dist, s, w)
     with np.errstate(all="ignore"):
-        den = cnt * sxx - sx**2
-        b = (cnt * sxz - sx * sz) / den
-        a = (sz - b * sx) / cnt
-        res = np.sqrt((w * (sv - a[:, None] - b[:, None] * dist) ** 2).sum(1) / cnt)
         cot = np.where((cnt >= 3) & (b < 0), -1.0 / b, np.nan)
+        se_cot = np.where(np.isfinite(cot), se_b / b**2, np.nan)
     return {"toe": toe * step, "toe_level": toe_level, "cot": cot,
             "rmse": np.where(cnt >= 3, res, np.nan), "truncated": ~has_toe,
-            "fit_count": cnt}
+            "fit_count": cnt, "cot_se": se_cot}
 
 
 def read_profiles(
@@ -270,6 +289,8 @@ def read_profiles(
         inner_slope=inn["cot"] * nan,
         outer_fit_rmse=out["rmse"] * nan,
         inner_fit_rmse=inn["rmse"] * nan,
+        outer_slope_se=out["cot_se"] * nan,
+        outer_fit_count=out["fit_count"],
         crest_cells=cells,
         noise=noise,
         nodata_fraction=nodata_fraction,
