@@ -42,7 +42,6 @@ LINE_NAME = "Vennel north levee (Harrowmere polder)"
 _NOISE_BLOCK = 256  # cells; noise is drawn per absolute block of this size
 _WINDOW = 512  # cells; processing window, a multiple of the GeoTIFF block size
 _NODE = 4  # cells between exactly located nodes of the (chainage, offset) field
-_G = 9.81
 
 
 # --------------------------------------------------------------------------- records
@@ -844,24 +843,14 @@ def indicative_freeboard(hm0: float, tm10: float, q_allow: float, *, cot_alpha: 
                          gamma_f: float = 1.0, wave_angle: float = 0.0) -> float:
     """Crest freeboard Rc (m) for ``q_allow`` (l/s per m) on a straight smooth slope.
 
-    EurOtop (2018) design and assessment approach (Eqs. 5.12-5.13, equation
-    numbers from memory)::
-
-        q/sqrt(g Hm0^3) = 0.026/sqrt(tan a) * xi * exp(-(2.5 Rc/(xi Hm0 gf gb))^1.3)
-        with maximum    0.1035 * exp(-(1.35 Rc/(Hm0 gf gb))^1.3)
-
-    ``xi = tan a / sqrt(Hm0 / (g Tm-1,0^2 / 2 pi))`` and the obliquity factor
-    ``gb = 1 - 0.0033 |beta|`` (EurOtop 2018 Eq. 5.29). Used only to tune and
-    document the demo; the package's own hydraulics live elsewhere.
+    The package's own EurOtop (2018) inverse (design or assessment approach)
+    with the oblique-wave factor; used to tune and document the demo.
     """
-    tan_a = 1.0 / cot_alpha
-    xi = tan_a / math.sqrt(hm0 / (_G * tm10 ** 2 / (2.0 * math.pi)))
-    gb = 1.0 - 0.0033 * min(abs(wave_angle), 80.0)
-    qd = q_allow / 1000.0 / math.sqrt(_G * hm0 ** 3)
-    rc_a = xi * hm0 * gamma_f * gb / 2.5 * max(
-        math.log(0.026 / math.sqrt(tan_a) * xi / qd), 0.0) ** (1 / 1.3)
-    rc_b = hm0 * gamma_f * gb / 1.35 * max(math.log(0.1035 / qd), 0.0) ** (1 / 1.3)
-    return min(rc_a, rc_b)
+    from . import hydraulics as hy
+
+    return float(hy.freeboard_for_discharge(
+        q_allow / 1000.0, hm0, tm10, 1.0 / cot_alpha, gamma_f=gamma_f,
+        gamma_beta=hy.gamma_beta_overtopping(wave_angle), approach="design"))
 
 
 def indicative_required_level(sec: DemoSection, *, cot_alpha: float) -> float:
