@@ -131,7 +131,7 @@ def test_sudden_local_drop_is_found_at_its_chainage():
     drop = (chainage >= 1200) & (chainage <= 1275)
     z[drop, -1] -= 0.30
     ep = assess_epochs(years, z, np.full(chainage.size, 0.5), vertical_accuracy=0.05)
-    assert np.array_equal(ep.sudden_drop.astype(bool), drop)
+    assert np.array_equal(ep.significant_drop.astype(bool), drop)
     assert 1200 <= chainage[np.argmin(ep.change_previous)] <= 1275
 
 

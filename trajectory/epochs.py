@@ -17,6 +17,9 @@ Definitions (documented in the README):
   that a few epochs that happen to line up do not make a rate look certain;
 - significant: the lowering rate exceeds ``rate_z`` standard errors (one-sided
   test; 1.645 is the 95 % level, common practice);
+- significant drop: the crest fell since the previous survey by more than
+  ``rate_z * sqrt(2) * sigma_v`` (the difference of two surveys of accuracy
+  ``sigma_v``), e.g. a local slip or excavation;
 - projected year: the calendar year in which the latest margin reaches zero at
   the lowering rate, ``floor(t_latest + margin / rate)``; none where the crest
   is stable or rising or the rate is not significant. Where the margin is
@@ -89,7 +92,7 @@ class EpochStations:
     lowering_rate_se: np.ndarray
     rate_significant: np.ndarray
     projected_year: np.ndarray
-    sudden_drop: np.ndarray
+    significant_drop: np.ndarray
 
     def columns(self) -> dict[str, np.ndarray]:
         return {k: getattr(self, k) for k in self.__dataclass_fields__}
@@ -292,14 +295,14 @@ def assess_epochs(years: np.ndarray, crest: np.ndarray, margin: np.ndarray, *,
     with np.errstate(invalid="ignore"):
         significant = np.isfinite(latest) & (rate > rate_z * se)
         drop_limit = rate_z * np.sqrt(2.0) * vertical_accuracy
-        sudden = change_previous < -drop_limit
+        dropped = change_previous < -drop_limit
     year_now = float(years[-1]) if k >= 2 else np.nan
     proj = projected_year(margin, rate, significant, year_now=year_now)
     return EpochStations(
         epochs_used=used.astype(int), first_year=first_year, change_previous=change_previous,
         change_first=change_first, lowering_rate=rate, lowering_rate_se=se,
         rate_significant=significant.astype(int), projected_year=proj,
-        sudden_drop=sudden.astype(int))
+        significant_drop=dropped.astype(int))
 
 
 # ------------------------------------------------------------------ stretches

@@ -69,7 +69,7 @@ EPOCH_STATION_FIELDS: tuple[Field, ...] = (
     _f("projected_year", "float", "year",
        "Year the margin reaches zero at the lowering rate; the survey year if already below "
        "(empty: stable, rising or not significant)"),
-    _f("sudden_drop", "int", "",
+    _f("significant_drop", "int", "",
        "1 where the crest fell since the previous survey by more than rate_z x sqrt(2) x "
        "vertical_accuracy"),
 )
