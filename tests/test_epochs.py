@@ -16,8 +16,17 @@ import pytest
 from scipy import stats
 
 from trajectory.epochs import (
-    EpochError, accuracy_se, assess_epochs, check_order, decimal_year, fit_rates,
-    match_stations, parse_dem_options, parse_epoch, projected_year, run_file_inputs,
+    EpochError,
+    accuracy_se,
+    assess_epochs,
+    check_order,
+    decimal_year,
+    fit_rates,
+    match_stations,
+    parse_dem_options,
+    parse_epoch,
+    projected_year,
+    run_file_inputs,
     stretch_figures,
 )
 
@@ -133,6 +142,16 @@ def test_sudden_local_drop_is_found_at_its_chainage():
     ep = assess_epochs(years, z, np.full(chainage.size, 0.5), vertical_accuracy=0.05)
     assert np.array_equal(ep.significant_drop.astype(bool), drop)
     assert 1200 <= chainage[np.argmin(ep.change_previous)] <= 1275
+
+
+def test_changes_skip_a_survey_in_which_the_station_was_not_read():
+    years = np.array([2019.0, 2021.0, 2024.0])
+    z = np.array([[6.2, np.nan, 6.0], [np.nan, 6.1, 6.0], [6.2, 6.1, np.nan]])
+    ep = assess_epochs(years, z, np.array([0.1, 0.1, np.nan]))
+    assert np.allclose(ep.change_previous[:2], [-0.2, -0.1])
+    assert np.allclose(ep.change_first[:2], [-0.2, -0.1])
+    assert ep.first_year.tolist() == [2019.0, 2021.0, 2019.0]
+    assert np.isnan(ep.change_previous[2]) and np.isnan(ep.projected_year[2])
 
 
 def test_single_undated_survey_gives_empty_epoch_figures():

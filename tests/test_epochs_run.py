@@ -20,8 +20,8 @@ from trajectory.assess import RunInputs, assess, run
 from trajectory.cli import EXIT_INPUT, main
 from trajectory.epochs import Epoch, EpochError
 from trajectory.outputs.report_epochs import report_sections
-from trajectory.params import Settings
 from trajectory.outputs.schema import EPOCH_STATION_FIELDS, field_names
+from trajectory.params import Settings
 from trajectory.synthetic import LeveeSpec, LowStretch, make_centreline, write_dem, write_scenario
 
 pytestmark = pytest.mark.slow  # writes four 3 km terrain models (about 10 s)
@@ -113,7 +113,7 @@ def test_outputs_carry_the_epoch_figures(series, three):
     table = (out.with_suffix(".csv")).read_text().splitlines()
     assert "lowering_rate" in table[1] and "projected_year" in table[1]
     meta = pyogrio.read_dataframe(out, layer="run_metadata")
-    kv = dict(zip(meta["key"], meta["value"]))
+    kv = dict(zip(meta["key"], meta["value"], strict=True))
     assert kv["epochs"].startswith("2019 (dem_2019.tif); 2021 (dem_2021.tif); 2024")
 
 

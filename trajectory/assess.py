@@ -233,8 +233,9 @@ def _epoch_levels(inputs: RunInputs, tasks: list[_Chunk], table: pd.DataFrame, c
 
 
 def _epoch_metadata(levels: EpochLevels, inputs: RunInputs) -> dict[str, Any]:
-    meta: dict[str, Any] = {"epochs": "; ".join(
-        f"{lab or 'undated'} ({src})" for lab, src in zip(levels.labels, levels.sources))}
+    pairs = zip(levels.labels, levels.sources, strict=True)
+    meta: dict[str, Any] = {"epochs": "; ".join(f"{lab or 'undated'} ({src})"
+                                                for lab, src in pairs)}
     for e in inputs.earlier:
         meta[f"input_epoch_{e.label}"] = Path(e.path).name
         if Path(e.path).is_file():

@@ -23,8 +23,9 @@ Definitions (documented in the README):
 - projected year: the calendar year in which the latest margin reaches zero at
   the lowering rate, ``floor(t_latest + margin / rate)``; none where the crest
   is stable or rising or the rate is not significant. Where the margin is
-  already negative the station falls short now: the latest epoch's year. The required level is today's:
-  changes of the requirement itself are not projected.
+  already negative the station falls short now: the latest epoch's year.
+  The required level is today's: changes of the requirement itself are not
+  projected.
 """
 
 from __future__ import annotations
@@ -285,7 +286,11 @@ def assess_epochs(years: np.ndarray, crest: np.ndarray, margin: np.ndarray, *,
     first_idx = np.where(readable.any(axis=1), readable.argmax(axis=1), 0)
     first = crest[np.arange(crest.shape[0]), first_idx]
     first_year = np.where(used > 0, years[first_idx], np.nan)
-    prev = crest[:, -2] if k >= 2 else np.full(crest.shape[0], np.nan)
+    # previous survey in which the station was read
+    before = readable[:, :-1]
+    prev_idx = k - 2 - np.argmax(before[:, ::-1], axis=1) if k >= 2 else None
+    prev = (np.where(before.any(axis=1), crest[np.arange(crest.shape[0]), prev_idx], np.nan)
+            if k >= 2 else np.full(crest.shape[0], np.nan))
     change_previous = latest - prev
     change_first = np.where(used >= 2, latest - first, np.nan)
     fit = fit_rates(years, crest)

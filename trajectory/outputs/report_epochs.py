@@ -19,7 +19,7 @@ def crest_epochs_figure(result, *, width: float = 9.0, height: float = 4.0) -> F
     c = t["chainage"].to_numpy(float)
     fig = Figure(figsize=(width, height), layout="constrained")
     ax = fig.add_subplot()
-    for j, (lab, src) in enumerate(zip(lv.labels, lv.sources)):
+    for j, (lab, src) in enumerate(zip(lv.labels, lv.sources, strict=True)):
         ax.plot(c, lv.crest[:, j], lw=1.0, label=lab or src)
     ax.plot(c, t["required_level"].to_numpy(float), "k--", lw=1.0, label="required level")
     ax.set_xlabel("chainage (m)")
@@ -38,14 +38,15 @@ def projected_year_figure(result, *, width: float = 9.0, height: float = 3.5) ->
     fig = Figure(figsize=(width, height), layout="constrained")
     ax = fig.add_subplot()
     has = np.isfinite(year)
-    for a, b, y, st in zip(s.from_chainage[has], s.to_chainage[has], year[has], s.status[has]):
+    for a, b, y, st in zip(s.from_chainage[has], s.to_chainage[has], year[has], s.status[has],
+                              strict=True):
         ax.hlines(y, a, b, lw=6, color="tab:red" if st == "deficit" else "tab:orange")
         ax.annotate(f"{y:.0f}", ((a + b) / 2, y), textcoords="offset points", xytext=(0, 6),
                     ha="center", fontsize="small")
     now = result.epochs.years[-1]
     if np.isfinite(now):
         ax.axhline(now, color="grey", lw=0.8, ls=":")
-    for a, b in zip(s.from_chainage[~has], s.to_chainage[~has]):
+    for a, b in zip(s.from_chainage[~has], s.to_chainage[~has], strict=True):
         ax.axvspan(a, b, color="tab:green", alpha=0.08, lw=0)
     if s.status.size:
         ax.set_xlim(float(s.from_chainage.min()), float(s.to_chainage.max()))
