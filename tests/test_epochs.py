@@ -226,3 +226,13 @@ def test_station_matching_refuses_incompatible_layouts():
         match_stations(c + 12.5, xy, c, xy, source="old")
     with pytest.raises(EpochError, match="apart"):
         match_stations(c, xy[::-1], c, xy, source="old")
+
+
+def test_summary_line_names_the_earliest_year_ahead():
+    from trajectory.epochs import summary_text
+
+    line = summary_text(["2019", "2024"], np.array([1, 0, 1]), np.array([2031.0, 2024.0, 2040.0]),
+                        np.array([0.2, -0.1, 0.4]))
+    assert line.endswith("2 station(s) with a significant lowering; earliest year a margin "
+                         "runs out: 2031")
+    assert summary_text(["2024"], np.array([0]), np.array([np.nan]), np.array([0.1])) == ""

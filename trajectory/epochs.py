@@ -310,6 +310,17 @@ def assess_epochs(years: np.ndarray, crest: np.ndarray, margin: np.ndarray, *,
         significant_drop=dropped.astype(int))
 
 
+def summary_text(labels: Sequence[str], significant: np.ndarray, projected: np.ndarray,
+                 margin: np.ndarray) -> str:
+    """One line for the log: surveys, significant lowerings, earliest projected year."""
+    if len(labels) < 2:
+        return ""
+    ahead = np.asarray(projected, float)[np.asarray(margin, float) >= 0]
+    first = f"{np.nanmin(ahead):.0f}" if np.isfinite(ahead).any() else "none"
+    return (f"surveys {', '.join(labels)}: {int(np.sum(significant))} station(s) with a "
+            f"significant lowering; earliest year a margin runs out: {first}")
+
+
 # ------------------------------------------------------------------ stretches
 def stretch_figures(first: np.ndarray, last: np.ndarray, lowering_rate: np.ndarray,
                     projected: np.ndarray) -> dict[str, np.ndarray]:
