@@ -236,3 +236,14 @@ def test_summary_line_names_the_earliest_year_ahead():
     assert line.endswith("2 station(s) with a significant lowering; earliest year a margin "
                          "runs out: 2031")
     assert summary_text(["2024"], np.array([0]), np.array([np.nan]), np.array([0.1])) == ""
+
+
+def test_single_survey_run_keeps_its_outputs_and_adds_an_epochs_layer(demo_result):
+    import pyogrio
+
+    result, out = demo_result
+    ep = pyogrio.read_dataframe(out, layer="epochs")
+    assert len(ep) == len(result.stations) and (ep["epoch"] == "").all()
+    st = result.stations
+    assert st["lowering_rate"].isna().all() and st["projected_year"].isna().all()
+    assert (st["epochs_used"] == np.isfinite(st["crest_level"]).astype(int)).all()

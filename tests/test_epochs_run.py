@@ -211,3 +211,33 @@ def test_cli_run_file_lists_the_surveys(series, tmp_path):
     ep = pyogrio.read_dataframe(out, layer="epochs")
     assert sorted(ep["epoch"].unique()) == ["2019", "2024"]
     assert list(ep.columns[:-1]) == field_names("epochs")
+
+
+def test_cli_compare_with_an_earlier_result(series, tmp_path):
+    _, paths = series
+    old = tmp_path / "old.gpkg"
+    res = CliRunner().invoke(main, _cli(paths, old, "--dem", str(paths["dem_2019"]),
+                                        "--spacing", "50"))
+    assert res.exit_code == 0, res.output
+    out = tmp_path / "new.gpkg"
+    res = CliRunner().invoke(main, _cli(paths, out, "--dem", f"2024={paths['dem']}",
+                                        "--compare", f"2019={old}", "--spacing", "50"))
+    assert res.exit_code == 0, res.output
+    before = pyogrio.read_dataframe(old, layer="stations")
+    ep = pyogrio.read_dataframe(out, layer="epochs")
+    assert np.allclose(ep.loc[ep["epoch"] == "2019", "crest_level"], before["crest_level"],
+                       equal_nan=True)
+    # the same comparison at the default 25 m spacing is refused, with the reason
+    res = CliRunner().invoke(main, _cli(paths, tmp_path / "r.gpkg", "--dem",
+                                        f"2024={paths['dem']}", "--compare", f"2019={old}"))
+    assert res.exit_code == EXIT_INPUT and "--spacing" in res.output
+    # and a comparison needs the date of the latest survey
+    res = CliRunner().invoke(main, _cli(paths, tmp_path / "s.gpkg", "--dem", str(paths["dem"]),
+                                        "--compare", f"2019={old}"))
+    assert res.exit_code == EXIT_INPUT and "needs its date" in res.output
+
+
+def test_cli_without_a_terrain_model_says_so(series, tmp_path):
+    _, paths = series
+    res = CliRunner().invoke(main, _cli(paths, tmp_path / "r.gpkg"))
+    assert res.exit_code == EXIT_INPUT and "no terrain model given" in res.output
