@@ -113,6 +113,7 @@ def assess(centreline: str, dem: tuple[str, ...], compare: tuple[str, ...], cond
     """Assess a levee line and write a GeoPackage and a deficit table."""
     from .assess import RunInputs, summary
     from .assess import assess as run_assess
+    from .epochs import summary_text
 
     _setup_logging(quiet, debug)
     bar = _Progress(quiet)
@@ -133,13 +134,12 @@ def assess(centreline: str, dem: tuple[str, ...], compare: tuple[str, ...], cond
     log.info("assessed %.0f m: ok %.0f m, watch %.0f m, deficit %.0f m, no_data %.0f m",
              sum(s[f"length_{k}"] for k in ("ok", "watch", "deficit", "no_data")),
              s["length_ok"], s["length_watch"], s["length_deficit"], s["length_no_data"])
-    from .epochs import summary_text
-
-    st = result.stations
-    line = summary_text(result.epochs.labels, st["rate_significant"], st["projected_year"],
-                        st["margin"])
-    if line:
-        log.info(line)
+    if result.epochs is not None:
+        st = result.stations
+        line = summary_text(result.epochs.labels, st["rate_significant"], st["projected_year"],
+                            st["margin"])
+        if line:
+            log.info(line)
     log.info(CAUTION)
 
 

@@ -6,21 +6,35 @@ import geopandas as gpd
 import numpy as np
 import shapely
 
-from ..epochs import stretch_figures
+from ..epochs import EpochLevels, stretch_figures
 from .schema import field_names
 
 
 def epoch_stretch_columns(result) -> dict[str, np.ndarray]:
     """Mean and worst lowering rate and earliest projected year of each stretch."""
     t, s = result.stations, result.stretches
-    return stretch_figures(s.first, s.last, t["lowering_rate"].to_numpy(float),
-                           t["projected_year"].to_numpy(float))
+    nan = np.full(len(t), np.nan)
+    return stretch_figures(s.first, s.last, _col(t, "lowering_rate", nan),
+                           _col(t, "projected_year", nan))
+
+
+def _col(t, name: str, default: np.ndarray) -> np.ndarray:
+    return t[name].to_numpy(float) if name in t.columns else default
+
+
+def levels_of(result) -> EpochLevels:
+    """The result's crest levels per epoch; the latest survey alone if none were kept."""
+    if result.epochs is not None:
+        return result.epochs
+    crest = result.stations["crest_level"].to_numpy(float)[:, None]
+    name = str(result.metadata.get("input_dem", ""))
+    return EpochLevels(labels=("",), years=np.array([np.nan]), sources=(name,), crest=crest)
 
 
 def epoch_layer(result) -> gpd.GeoDataFrame:
     """One point per station and survey epoch, oldest epoch first within a station."""
     t = result.stations
-    lv = result.epochs
+    lv = levels_of(result)
     n, k = lv.crest.shape
     z = lv.crest
     prev = np.concatenate([np.full((n, 1), np.nan), z[:, :-1]], axis=1)

@@ -12,8 +12,8 @@ import shapely
 from shapely.ops import substring
 
 from ..status import station_extents
-from .epochs_layer import epoch_layer, epoch_stretch_columns
 from .atomic import atomic_path
+from .epochs_layer import epoch_layer, epoch_stretch_columns
 from .schema import LAYERS, field_names
 
 
