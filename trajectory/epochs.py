@@ -183,6 +183,8 @@ def run_file_inputs(path: str | Path) -> tuple[tuple[str, ...], tuple[str, ...]]
     except (OSError, tomllib.TOMLDecodeError) as exc:
         raise EpochError(f"{p}: cannot read the run file ({exc})") from exc
     inputs = data.get("inputs", {})
+    if not isinstance(inputs, dict):
+        raise EpochError(f"{p}: 'inputs' must be a table ([inputs])")
     out = []
     for key in ("dem", "compare"):
         items = inputs.get(key, [])
