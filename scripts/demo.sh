@@ -5,11 +5,14 @@ ROOT="$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)"
 cd "$ROOT"
 bash scripts/setup_env.sh test
 VPY="$ROOT/.venv/bin/python"
-if [ ! -f sample_gis/dem.tif ] || [ ! -f sample_gis/sections.csv ]; then
+if [ ! -f sample_gis/dem.tif ] || [ ! -f sample_gis/sections.csv ] \
+        || [ ! -f sample_gis/dem_2019.tif ] || [ ! -f sample_gis/dem_2021.tif ]; then
     "$VPY" scripts/make_sample_data.py --out sample_gis
 fi
 mkdir -p results
 "$ROOT/.venv/bin/trajectory" assess \
-    --centreline sample_gis/levee.gpkg --dem sample_gis/dem.tif \
+    --centreline sample_gis/levee.gpkg \
+    --dem 2019=sample_gis/dem_2019.tif --dem 2021=sample_gis/dem_2021.tif \
+    --dem 2024=sample_gis/dem.tif \
     --conditions sample_gis/sections.csv --out results/results.gpkg --overwrite "$@"
 echo "Results: results/results.gpkg and results/results.csv"

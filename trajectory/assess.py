@@ -8,6 +8,7 @@ operations, so memory is bounded by the chunk size, not by the line's length.
 
 from __future__ import annotations
 
+import dataclasses
 import logging
 import os
 from collections.abc import Callable, Iterator
@@ -25,6 +26,8 @@ from shapely.geometry import LineString
 
 from . import CAUTION, __version__
 from .chainage import Stations, make_stations
+from .epoch_sources import crest_from_result, open_earlier_dem
+from .epochs import Epoch, EpochLevels, assess_epochs, check_order
 from .errors import InputError, ParameterError
 from .params import Settings
 from .profile import flag_text, read_profiles
@@ -49,6 +52,8 @@ class RunInputs:
     dem: str
     conditions: str
     layer: str | None = None
+    dem_date: str | None = None        # survey date of `dem` (needed with earlier epochs)
+    earlier: tuple[Epoch, ...] = ()    # earlier surveys, oldest first
 
 
 @dataclass
@@ -62,6 +67,7 @@ class Result:
     offsets: np.ndarray                # sample offsets (m, + towards the outer side)
     profiles: np.ndarray               # stations x offsets, float32, oriented outer-positive
     metadata: dict[str, Any] = field(default_factory=dict)
+    epochs: EpochLevels | None = None  # crest level per survey epoch (oldest first)
 
 
 # ---------------------------------------------------------------- chunks
@@ -138,6 +144,8 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     s = settings or Settings()
     # read the terrain model first: its CRS is the working CRS
     dem = open_dem(inputs.dem)
+    # earlier surveys: dates in order, terrain models in the same CRS
+    _check_epochs(inputs, dem)
     # read the centreline, reprojected to the DEM's CRS, joined into one line
     line, crs = read_centreline(inputs.centreline, layer=inputs.layer, target_crs=dem.crs)
     if not line_bounds_overlap(line, dem, s.half_width):
@@ -178,8 +186,61 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     stretches = merge_stretches(st.chainage, status, cols["margin"],
                                 start=s.start_chainage, end=end)
     meta = _metadata(inputs, s, dem, crs, line)
+    # every epoch read on the same stations and sections: change, rate, projected year
+    levels = _epoch_levels(inputs, tasks, table, crs, cols["crest_level"], s)
+    ep = assess_epochs(levels.years, levels.crest, cols["margin"],
+                       vertical_accuracy=s.vertical_accuracy, rate_z=s.rate_z)
+    for k, v in ep.columns().items():
+        table[k] = v
+    meta.update(_epoch_metadata(levels, inputs))
     return Result(stations=table, stretches=stretches, line=line, crs=crs,
-                  offsets=offsets, profiles=profiles, metadata=meta)
+                  offsets=offsets, profiles=profiles, metadata=meta, epochs=levels)
+
+
+def _check_epochs(inputs: RunInputs, dem: DemInfo) -> None:
+    if not inputs.earlier:
+        return
+    if inputs.dem_date is None:
+        raise InputError(f"{inputs.dem}: give the survey date of the latest terrain model "
+                         "(e.g. --dem 2024=dem.tif) to compare it with earlier surveys")
+    epochs = [*inputs.earlier, Epoch(inputs.dem_date, inputs.dem)]
+    check_order([e.label for e in epochs], [e.path for e in epochs])
+    for e in inputs.earlier:
+        if e.kind == "dem":
+            open_earlier_dem(e, latest=dem)
+
+
+def _epoch_levels(inputs: RunInputs, tasks: list[_Chunk], table: pd.DataFrame, crs: CRS,
+                  crest: np.ndarray, s: Settings) -> EpochLevels:
+    """Crest level per epoch: earlier terrain models read like the latest, results matched."""
+    columns = []
+    xy = table[["x", "y"]].to_numpy(float)
+    for e in inputs.earlier:
+        if e.kind == "result":
+            columns.append(crest_from_result(e, crs=crs, chainage=table["chainage"].to_numpy(),
+                                             xy=xy))
+            continue
+        log.info("reading survey %s (%s)", e.label, e.path)
+        again = [dataclasses.replace(t, dem_path=e.path) for t in tasks]
+        columns.append(np.concatenate([p["crest_level"] for p in
+                                       _map(_assess_chunk, again, s.workers)]))
+    labels = (*(e.label for e in inputs.earlier), inputs.dem_date or "")
+    years = (check_order(labels, [*(e.path for e in inputs.earlier), inputs.dem])
+             if inputs.earlier else np.array([np.nan]))
+    sources = (*(Path(e.path).name for e in inputs.earlier), Path(inputs.dem).name)
+    return EpochLevels(labels=labels, years=years, sources=sources,
+                       crest=np.stack([*columns, crest], axis=1))
+
+
+def _epoch_metadata(levels: EpochLevels, inputs: RunInputs) -> dict[str, Any]:
+    pairs = zip(levels.labels, levels.sources, strict=True)
+    meta: dict[str, Any] = {"epochs": "; ".join(f"{lab or 'undated'} ({src})"
+                                                for lab, src in pairs)}
+    for e in inputs.earlier:
+        meta[f"input_epoch_{e.label}"] = Path(e.path).name
+        if Path(e.path).is_file():
+            meta[f"sha256_epoch_{e.label}"] = file_checksum(e.path)
+    return meta
 
 
 def _station_table(st: Stations, side: np.ndarray, cond: Conditions, sec: np.ndarray,

@@ -56,6 +56,15 @@ def _build_settings(config: str | None, given: dict[str, Any]) -> Settings:
     return Settings.from_mapping(values, source=config or "command line")
 
 
+def _epoch_inputs(config: str | None, dem: tuple[str, ...], compare: tuple[str, ...]) -> tuple:
+    """Terrain models and earlier results: the options, else [inputs] of the run file."""
+    from .epochs import parse_dem_options, run_file_inputs
+
+    if config and not dem and not compare:
+        dem, compare = run_file_inputs(config)
+    return parse_dem_options(dem, compare)
+
+
 class _Progress:
     """Progress bar drawn by the CLI from the library's callback."""
 
@@ -84,7 +93,11 @@ def main() -> None:
 
 @main.command()
 @click.option("--centreline", required=True, help="Levee centreline (any OGR line format).")
-@click.option("--dem", required=True, help="Terrain model (any GDAL raster, VRT mosaics too).")
+@click.option("--dem", multiple=True, help="Terrain model (any GDAL raster, VRT mosaics too); "
+              "repeat as --dem DATE=PATH for several surveys, oldest first (the last gives the "
+              "status); or a list `dem` under [inputs] in the run file.")
+@click.option("--compare", multiple=True, help="Earlier result GeoPackage of the same line as "
+              "DATE=OLD.gpkg (repeatable, oldest first); stations matched by chainage.")
 @click.option("--conditions", required=True, help="Section conditions table (CSV).")
 @click.option("--out", required=True, help="Output GeoPackage.")
 @click.option("--layer", default=None, help="Line layer of the centreline file.")
@@ -94,18 +107,21 @@ def main() -> None:
 @click.option("--quiet", is_flag=True, help="Only warnings and errors; no progress bar.")
 @click.option("--debug", is_flag=True, help="Show tracebacks and debug logs.")
 @_settings_options
-def assess(centreline: str, dem: str, conditions: str, out: str, layer: str | None,
-           table: str | None, config: str | None, overwrite: bool, quiet: bool,
-           debug: bool, **params: Any) -> None:
+def assess(centreline: str, dem: tuple[str, ...], compare: tuple[str, ...], conditions: str,
+           out: str, layer: str | None, table: str | None, config: str | None,
+           overwrite: bool, quiet: bool, debug: bool, **params: Any) -> None:
     """Assess a levee line and write a GeoPackage and a deficit table."""
     from .assess import RunInputs, summary
     from .assess import assess as run_assess
+    from .epochs import summary_text
 
     _setup_logging(quiet, debug)
     bar = _Progress(quiet)
     try:
         settings = _build_settings(config, params)
-        result = run_assess(RunInputs(centreline, dem, conditions, layer), out, settings,
+        dem_path, dem_date, earlier = _epoch_inputs(config, dem, compare)
+        result = run_assess(RunInputs(centreline, dem_path, conditions, layer, dem_date=dem_date,
+                                      earlier=earlier), out, settings,
                             overwrite=overwrite, table=table, progress=bar)
     except FileOverwriteError as exc:
         bar.close()
@@ -118,6 +134,12 @@ def assess(centreline: str, dem: str, conditions: str, out: str, layer: str | No
     log.info("assessed %.0f m: ok %.0f m, watch %.0f m, deficit %.0f m, no_data %.0f m",
              sum(s[f"length_{k}"] for k in ("ok", "watch", "deficit", "no_data")),
              s["length_ok"], s["length_watch"], s["length_deficit"], s["length_no_data"])
+    if result.epochs is not None:
+        st = result.stations
+        line = summary_text(result.epochs.labels, st["rate_significant"], st["projected_year"],
+                            st["margin"])
+        if line:
+            log.info(line)
     log.info(CAUTION)
 
 

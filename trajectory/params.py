@@ -79,6 +79,13 @@ class Settings:
                        choices=("design", "mean"), group="requirement")
     watch_band: float = _p(0.10, "Margins from 0 up to this value are 'watch' rather than 'ok'.",
                            unit="m", min=0.0, max=5.0, group="requirement")
+    # --- several surveys (epochs)
+    vertical_accuracy: float = _p(0.05, "Vertical accuracy (standard deviation) of each terrain "
+                                  "model; a lowering rate must stand out against it.",
+                                  unit="m", min=0.0, min_exclusive=True, max=2.0, group="epochs")
+    rate_z: float = _p(1.645, "Standard errors a lowering rate (or a drop between surveys) must "
+                       "exceed to count (one-sided; 1.645 = 95 %).",
+                       unit="-", min=0.0, min_exclusive=True, max=10.0, group="epochs")
     # --- execution
     chunk_size: int = _p(64, "Stations processed together in one chunk (bounds memory).",
                          unit="stations", min=1, max=100000, group="execution")
@@ -126,6 +133,7 @@ def load_run_file(path: str | Path) -> dict[str, Any]:
         raise ParameterError(f"{p}: run file not found") from exc
     except tomllib.TOMLDecodeError as exc:
         raise ParameterError(f"{p}: not valid TOML ({exc})") from exc
+    data.pop("inputs", None)  # the input files of a run file (read by the CLI)
     return dict(data.get("parameters", data))
 
 

@@ -13,6 +13,7 @@ from shapely.ops import substring
 
 from ..status import station_extents
 from .atomic import atomic_path
+from .epochs_layer import epoch_layer, epoch_stretch_columns
 from .schema import LAYERS, field_names
 
 
@@ -71,6 +72,7 @@ def stretch_layer(result, *, start: float, reverse: bool) -> gpd.GeoDataFrame:
     data = {"from_chainage": s.from_chainage, "to_chainage": s.to_chainage,
             "length": s.length, "status": s.status, "worst_margin": s.worst_margin,
             "worst_chainage": s.worst_chainage, "stations": s.last - s.first + 1}
+    data.update(epoch_stretch_columns(result))
     return _frame(data, "stretches", geoms, result.crs)
 
 
@@ -89,6 +91,7 @@ def write_geopackage(result, path: str | Path, *, overwrite: bool = False) -> Pa
         "crest_line": crest_line_layer(result),
         "stretches": stretch_layer(result, start=start, reverse=reverse),
         "run_metadata": metadata_table(result),
+        "epochs": epoch_layer(result),
     }
     assert set(layers) == set(LAYERS)
     with atomic_path(path, overwrite=overwrite) as tmp:

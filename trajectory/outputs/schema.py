@@ -55,6 +55,42 @@ STATION_FIELDS: tuple[Field, ...] = (
     _f("water_side", "str", "", "Side of the water relative to the digitised direction"),
 )
 
+# --- several surveys (trajectory.epochs): stations and stretches fields, the `epochs` layer
+EPOCH_STATION_FIELDS: tuple[Field, ...] = (
+    _f("epochs_used", "int", "", "Number of surveys in which the crest was read"),
+    _f("first_year", "float", "year", "Date of the first survey read (decimal year)"),
+    _f("change_previous", "float", "m", "Crest level change since the previous survey (- lower)"),
+    _f("change_first", "float", "m", "Crest level change since the first survey (- lower)"),
+    _f("lowering_rate", "float", "m/yr",
+       "Crest lowering rate, least squares over the surveys (+ going down)"),
+    _f("lowering_rate_se", "float", "m/yr",
+       "Standard error of the rate: the fit's, at least what the DEM accuracy allows"),
+    _f("rate_significant", "int", "", "1 where the lowering rate exceeds rate_z standard errors"),
+    _f("projected_year", "float", "year",
+       "Year the margin reaches zero at the lowering rate; the survey year if already below "
+       "(empty: stable, rising or not significant)"),
+    _f("significant_drop", "int", "",
+       "1 where the crest fell since the previous survey by more than rate_z x sqrt(2) x "
+       "vertical_accuracy"),
+)
+EPOCH_STRETCH_FIELDS: tuple[Field, ...] = (
+    _f("mean_lowering_rate", "float", "m/yr", "Mean lowering rate of the stretch's stations"),
+    _f("worst_lowering_rate", "float", "m/yr", "Largest lowering rate in the stretch"),
+    _f("earliest_projected_year", "float", "year",
+       "Earliest projected year of the stretch's stations (empty: none)"),
+)
+EPOCH_FIELDS: tuple[Field, ...] = (
+    _f("chainage", "float", "m", "Chainage of the station"),
+    _f("epoch", "str", "", "Survey date as given (empty for a single undated survey)"),
+    _f("year", "float", "year", "Survey date as a decimal year"),
+    _f("source", "str", "", "File the survey was read from (terrain model or earlier result)"),
+    _f("crest_level", "float", "m", "Crest level in this survey"),
+    _f("change_previous", "float", "m", "Change since the station's previous survey"),
+    _f("change_first", "float", "m", "Change since the first survey"),
+    _f("margin", "float", "m", "Crest level of this survey - today's required level"),
+)
+STATION_FIELDS = STATION_FIELDS + EPOCH_STATION_FIELDS
+
 CROSS_SECTION_FIELDS: tuple[Field, ...] = (
     _f("chainage", "float", "m", "Chainage of the station"),
     _f("crest_level", "float", "m", "Measured crest level"),
@@ -79,6 +115,7 @@ STRETCH_FIELDS: tuple[Field, ...] = (
     _f("worst_chainage", "float", "m", "Chainage of the smallest margin"),
     _f("stations", "int", "", "Number of stations in the stretch"),
 )
+STRETCH_FIELDS = STRETCH_FIELDS + EPOCH_STRETCH_FIELDS
 
 METADATA_FIELDS: tuple[Field, ...] = (
     _f("key", "str", "", "Item of the run's metadata"),
@@ -92,6 +129,7 @@ LAYERS: dict[str, tuple[str | None, tuple[Field, ...]]] = {
     "crest_line": ("LineString Z", CREST_LINE_FIELDS),
     "stretches": ("LineString", STRETCH_FIELDS),
     "run_metadata": (None, METADATA_FIELDS),
+    "epochs": ("Point", EPOCH_FIELDS),
 }
 
 

@@ -1,0 +1,62 @@
+"""Read the earlier surveys of a multi-epoch run: terrain models and earlier results.
+
+An edge module (it touches files); the arithmetic is in :mod:`trajectory.epochs`.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pyogrio
+from pyproj import CRS
+
+from .epochs import Epoch, EpochError, match_stations
+from .errors import InputFileError
+from .sources import DemInfo, open_dem
+
+
+def open_earlier_dem(epoch: Epoch, *, latest: DemInfo) -> DemInfo:
+    """Open an earlier terrain model; refuse one in another CRS than the latest."""
+    dem = open_dem(epoch.path)
+    if not dem.crs.equals(latest.crs):
+        raise EpochError(
+            f"{epoch.path}: survey {epoch.label} is in {_crs_name(dem.crs)} but the latest "
+            f"terrain model {latest.path} is in {_crs_name(latest.crs)}; reproject it to the "
+            "same CRS so the stations fall on the same ground")
+    return dem
+
+
+def crest_from_result(epoch: Epoch, *, crs: CRS, chainage: np.ndarray,
+                      xy: np.ndarray) -> np.ndarray:
+    """Crest level of an earlier result GeoPackage at this run's stations (NaN: none there)."""
+    p = Path(epoch.path)
+    if not p.is_file():
+        raise InputFileError(f"{p}: earlier result not found")
+    try:
+        layers = [str(n) for n, _ in pyogrio.list_layers(p)]
+    except Exception as exc:  # pyogrio raises several kinds for unreadable data
+        raise InputFileError(f"{p}: not a GeoPackage GDAL can read ({exc})") from exc
+    if "stations" not in layers:
+        raise EpochError(f"{p}: no 'stations' layer; give a result GeoPackage written by "
+                         "trajectory assess")
+    old = pyogrio.read_dataframe(p, layer="stations", columns=["chainage", "crest_level"])
+    missing = [c for c in ("chainage", "crest_level") if c not in old.columns]
+    if missing:
+        raise EpochError(f"{p}: the stations layer lacks {', '.join(missing)}")
+    old_crs = CRS.from_user_input(old.crs) if old.crs is not None else None
+    if old_crs is None or not old_crs.equals(crs):
+        raise EpochError(f"{p}: the earlier result is in {_crs_name(old_crs)} but this run is "
+                         f"in {_crs_name(crs)}; the stations cannot be matched")
+    old_xy = np.stack([old.geometry.x.to_numpy(), old.geometry.y.to_numpy()], 1)
+    idx = match_stations(chainage, xy, old["chainage"].to_numpy(float), old_xy,
+                         source=str(p))
+    level = old["crest_level"].to_numpy(float)
+    return np.where(idx >= 0, level[np.clip(idx, 0, None)], np.nan)
+
+
+def _crs_name(crs: CRS | None) -> str:
+    if crs is None:
+        return "no CRS"
+    epsg = crs.to_epsg()
+    return f"EPSG:{epsg}" if epsg else crs.name
