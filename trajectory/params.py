@@ -79,6 +79,11 @@ class Settings:
                        choices=("design", "mean"), group="requirement")
     watch_band: float = _p(0.10, "Margins from 0 up to this value are 'watch' rather than 'ok'.",
                            unit="m", min=0.0, max=5.0, group="requirement")
+    # --- stretches and reporting (outputs)
+    min_stretch_length: float = _p(50.0, "Runs of stations shorter than this take the status of a "
+                                   "more severe neighbouring stretch (never a milder one), so "
+                                   "one noisy station does not split a stretch; 0 = off.",
+                                   unit="m", min=0.0, max=10000.0, group="outputs")
     # --- execution
     chunk_size: int = _p(64, "Stations processed together in one chunk (bounds memory).",
                          unit="stations", min=1, max=100000, group="execution")
