@@ -11,5 +11,7 @@ fi
 mkdir -p results
 "$ROOT/.venv/bin/trajectory" assess \
     --centreline sample_gis/levee.gpkg --dem sample_gis/dem.tif \
-    --conditions sample_gis/sections.csv --out results/results.gpkg --overwrite "$@"
-echo "Results: results/results.gpkg and results/results.csv"
+    --conditions sample_gis/sections.csv --out results/results.gpkg \
+    --report results/report.html --overwrite "$@"
+echo "Results: results/results.gpkg (with layer styles), results/results.csv," \
+     "results/results_stretches.csv, results/results.xlsx and results/report.html"

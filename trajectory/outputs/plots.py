@@ -166,5 +166,6 @@ def cross_sections(profiles: pd.DataFrame, stations: pd.DataFrame,
         ax.set_ylabel("level (m)")
         ax.grid(alpha=0.3, lw=0.4)
         if k == 0:
-            ax.legend(fontsize=6.5, loc="lower center")
+            fig.legend(*ax.get_legend_handles_labels(), fontsize=7, ncol=4,
+                       loc="outside upper center", frameon=False)
     return fig
