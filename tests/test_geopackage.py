@@ -86,6 +86,6 @@ def test_section_profiles_hold_the_worst_stations(demo_result):
     result, out = demo_result
     prof = pyogrio.read_dataframe(out, layer="section_profiles")
     st = pyogrio.read_dataframe(out, layer="stretches")
-    worst = st[st["status"] == "deficit"]["worst_chainage"]
+    worst = st[st["status"].isin(["deficit", "watch"])]["worst_chainage"]
     assert set(prof["chainage"]) == set(worst)
     assert len(prof) == len(worst) * result.offsets.size

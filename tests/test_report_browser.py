@@ -7,9 +7,9 @@ installs it.
 from __future__ import annotations
 
 import numpy as np
+from browser import probe, screenshot
 from PIL import Image
 
-from browser import probe, screenshot
 from trajectory.outputs.report import write_report
 from trajectory.outputs.style import STATUS_COLOURS
 

@@ -32,8 +32,8 @@ def _compare(ws, csv_path):
     t = pd.read_csv(csv_path, comment="#", keep_default_na=True)
     assert names == list(t.columns)
     assert len(rows) == len(t)
-    for r, (_, ref) in zip(rows, t.iterrows()):
-        for a, b, col in zip(r, ref.tolist(), names):
+    for r, (_, ref) in zip(rows, t.iterrows(), strict=True):
+        for a, b, col in zip(r, ref.tolist(), names, strict=True):
             b = "" if (col in ("flags", "section_id") and isinstance(b, float)
                        and math.isnan(b)) else b
             assert _same(a, b), (col, a, b)
@@ -58,4 +58,4 @@ def test_stretches_sheet_matches_its_csv_and_is_sorted_by_severity(demo_result):
     assert finite == sorted(finite) and worst[:len(finite)] == finite
     vol = [r[names.index("fill_volume")] for r in rows]
     status = [r[names.index("status")] for r in rows]
-    assert all((v > 0) == (s == "deficit") for v, s in zip(vol, status))
+    assert all((v > 0) == (s == "deficit") for v, s in zip(vol, status, strict=True))

@@ -17,6 +17,7 @@ from matplotlib.patches import Patch
 from ..status import STATUSES
 from .style import INK, STATUS_COLOURS
 
+
 def _figure(w: float, h: float) -> Figure:
     fig = Figure(figsize=(w, h), dpi=150, layout="constrained")
     FigureCanvasAgg(fig)
@@ -38,7 +39,7 @@ def length_by_status(stretches: pd.DataFrame) -> Figure:
             linewidth=0.5)
     ax.set_yticks(y, STATUSES)
     total = sum(lengths) or 1.0
-    for yi, v in zip(y, lengths):
+    for yi, v in zip(y, lengths, strict=True):
         ax.text(v, yi, f"  {v:,.0f} m ({100 * v / total:.0f} %)", va="center", fontsize=8)
     ax.set_xlabel("length along the centreline (m)")
     ax.set_xlim(0, max(lengths) * 1.3 or 1.0)

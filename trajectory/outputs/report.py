@@ -17,7 +17,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from html import escape
 from pathlib import Path
-from typing import Any, Union
+from typing import Any
 
 import geopandas as gpd
 import numpy as np
@@ -38,7 +38,7 @@ from .style import STATUS_COLOURS
 log = logging.getLogger(__name__)
 
 #: one extra report section: (title, Figure or HTML fragment)
-Section = tuple[str, Union[Figure, str]]
+Section = tuple[str, Figure | str]
 #: rows of the worst-stretches table in the summary
 WORST_ROWS = 8
 
@@ -76,7 +76,7 @@ def load_report_data(gpkg: str | Path) -> ReportData:
                 if "section_profiles" in names
                 else pd.DataFrame({"chainage": [], "offset": [], "level": []}))
     return ReportData(stations=stations, stretches=stretches,
-                      metadata=dict(zip(meta["key"], meta["value"])),
+                      metadata=dict(zip(meta["key"], meta["value"], strict=True)),
                       profiles=pd.DataFrame(profiles), source=p.name)
 
 
