@@ -14,7 +14,7 @@ from matplotlib.figure import Figure
 from PIL import Image
 
 from trajectory import CAUTION
-from trajectory.cli import EXIT_INPUT, main
+from trajectory.cli import EXIT_INPUT, EXIT_OVERWRITE, main
 from trajectory.outputs.report import write_report
 from trajectory.status import STATUSES
 
@@ -115,6 +115,8 @@ def test_report_command_and_assess_report(demo, report, tmp_path):
                                     "--quiet"])
     assert res.exit_code == 0, res.output
     assert CAUTION in (tmp_path / "r.html").read_text(encoding="utf-8")
+    again = CliRunner().invoke(main, ["report", str(out), "--out", str(tmp_path / "r.html")])
+    assert again.exit_code == EXIT_OVERWRITE and "--overwrite" in again.output
     res = CliRunner().invoke(main, ["report", str(tmp_path / "missing.gpkg")])
     assert res.exit_code == EXIT_INPUT and "not found" in res.output
     args = ["assess", "--centreline", str(demo["centreline"]), "--dem", str(demo["dem"]),
@@ -124,3 +126,21 @@ def test_report_command_and_assess_report(demo, report, tmp_path):
     assert res.exit_code == 0, res.output
     html = (tmp_path / "a.html").read_text(encoding="utf-8")
     assert "a.gpkg" in html and html.count("data:image/png;base64,") == 4
+
+
+def test_registered_section_builders_run_on_the_report_data(demo_result, monkeypatch):
+    from trajectory.outputs import report as rep
+
+    _, out = demo_result
+    seen = []
+
+    def builder(data):
+        seen.append(len(data.stations))
+        return ("Registered", f"<p id='reg'>{len(data.stations)} stations</p>")
+
+    monkeypatch.setattr(rep, "SECTION_BUILDERS", (builder, lambda data: None))
+    data = rep.load_report_data(out)
+    html = rep.render_html(data, extra_sections=[("Explicit", "<p>x</p>")])
+    assert seen == [len(data.stations)]
+    assert f"<p id='reg'>{len(data.stations)} stations</p>" in html
+    assert html.index("Registered") < html.index("Explicit")

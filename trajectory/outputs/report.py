@@ -5,7 +5,10 @@ read the written GeoPackage, so the report's numbers are the file's numbers.
 Every image is a PNG embedded as a ``data:`` URI; the page needs no network,
 no script and no other file. Other stages add their own sections through
 ``extra_sections``: a list of ``(title, content)`` pairs where content is a
-matplotlib Figure or an HTML fragment, one line each.
+matplotlib Figure or an HTML fragment; or, to appear in every report, by
+adding a builder (``ReportData -> (title, content) | None``) to
+:data:`SECTION_BUILDERS`, one line each. Layers of the GeoPackage beyond the
+core ones are in ``ReportData.layers`` for such builders.
 """
 
 from __future__ import annotations
@@ -13,8 +16,8 @@ from __future__ import annotations
 import base64
 import io
 import logging
-from collections.abc import Sequence
-from dataclasses import dataclass
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, field
 from html import escape
 from pathlib import Path
 from typing import Any
@@ -52,6 +55,19 @@ class ReportData:
     metadata: dict[str, str]
     profiles: pd.DataFrame        # section_profiles (may be empty)
     source: str                   # file name of the GeoPackage
+    layers: dict[str, pd.DataFrame] = field(default_factory=dict)  # any further layers
+
+
+SectionBuilder = Callable[[ReportData], "Section | None"]
+
+#: builders of sections every report carries, after the core ones; other stages
+#: add theirs here, one line each (e.g. ``report_epochs.epoch_section,``)
+SECTION_BUILDERS: tuple[SectionBuilder, ...] = (
+)
+
+#: layers read into ReportData's own fields, or not needed by the report
+_CORE = {"stations", "stretches", "run_metadata", "section_profiles", "layer_styles",
+         "cross_sections", "crest_line"}
 
 
 def load_report_data(gpkg: str | Path) -> ReportData:
@@ -75,9 +91,10 @@ def load_report_data(gpkg: str | Path) -> ReportData:
     profiles = (pyogrio.read_dataframe(p, layer="section_profiles")
                 if "section_profiles" in names
                 else pd.DataFrame({"chainage": [], "offset": [], "level": []}))
+    layers = {n: pyogrio.read_dataframe(p, layer=n) for n in sorted(names - _CORE)}
     return ReportData(stations=stations, stretches=stretches,
                       metadata=dict(zip(meta["key"], meta["value"], strict=True)),
-                      profiles=pd.DataFrame(profiles), source=p.name)
+                      profiles=pd.DataFrame(profiles), source=p.name, layers=layers)
 
 
 def figure_html(fig: Figure, alt: str) -> str:
@@ -216,7 +233,8 @@ def render_html(data: ReportData, *, extra_sections: Sequence[Section] = ()) -> 
     else:
         parts.append(_section_html("Cross-sections of the worst stations",
                                    "<p>No stored profile to draw.</p>", "sections"))
-    for i, (title, content) in enumerate(extra_sections):
+    built = [sec for sec in (b(data) for b in SECTION_BUILDERS) if sec is not None]
+    for i, (title, content) in enumerate([*built, *extra_sections]):
         parts.append(_section_html(title, content, f"extra-{i + 1}"))
     parts += [
         '<section id="run-metadata"><h2>Run metadata</h2>'
