@@ -14,5 +14,7 @@ mkdir -p results
     --centreline sample_gis/levee.gpkg \
     --dem 2019=sample_gis/dem_2019.tif --dem 2021=sample_gis/dem_2021.tif \
     --dem 2024=sample_gis/dem.tif \
-    --conditions sample_gis/sections.csv --out results/results.gpkg --overwrite "$@"
-echo "Results: results/results.gpkg and results/results.csv"
+    --conditions sample_gis/sections.csv --out results/results.gpkg \
+    --report results/report.html --overwrite "$@"
+echo "Results: results/results.gpkg (with layer styles), results/results.csv," \
+     "results/results_stretches.csv, results/results.xlsx and results/report.html"

@@ -29,3 +29,19 @@ def test_readme_field_tables_are_current():
     text = README.read_text(encoding="utf-8")
     assert refresh_readme(text) == text, "run: python -m trajectory.outputs.schema README.md"
     assert "qualified engineer" in text
+
+
+def test_written_geopackage_matches_the_contract_exactly(demo_result):
+    """The one test that owns the written contract: layer set, geometry types, field order."""
+    import pyogrio
+
+    from trajectory.outputs.schema import field_names
+
+    _, out = demo_result
+    layers = dict(pyogrio.list_layers(out))
+    # layer_styles is the desktop-GIS style table convention, not a result layer
+    assert set(layers) == set(LAYERS) | {"layer_styles"}
+    for name, (geom, _) in LAYERS.items():
+        info = pyogrio.read_info(out, layer=name)
+        assert list(info["fields"]) == field_names(name), name
+        assert (info["geometry_type"] if geom else None) == geom, name

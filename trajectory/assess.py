@@ -184,7 +184,8 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     table = _station_table(st, side, cond, sec, cols, status)
     end = s.start_chainage + line.length
     stretches = merge_stretches(st.chainage, status, cols["margin"],
-                                start=s.start_chainage, end=end)
+                                start=s.start_chainage, end=end,
+                                min_length=s.min_stretch_length)
     meta = _metadata(inputs, s, dem, crs, line)
     # every epoch read on the same stations and sections: change, rate, projected year
     levels = _epoch_levels(inputs, tasks, table, crs, cols["crest_level"], s)
@@ -304,25 +305,49 @@ def _metadata(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS,
             meta[f"sha256_{k}"] = file_checksum(p)
     if inputs.layer:
         meta["input_layer"] = inputs.layer
+    # CRS of each input as given (the centreline is reprojected to the DEM's)
+    meta["crs_dem"] = dem.crs.to_string()
+    meta["crs_centreline"] = _source_crs(inputs.centreline, inputs.layer)
+    meta["crs_conditions"] = "none (table; chainage along the centreline)"
     for k, v in s.__dict__.items():
         meta[f"param_{k}"] = v
     return meta
 
 
+def _source_crs(path: str, layer: str | None) -> str:
+    import pyogrio
+
+    try:
+        crs = pyogrio.read_info(path, layer=layer)["crs"]
+    except Exception:  # recorded for information only; the run has read the file already
+        return "unknown"
+    return CRS.from_user_input(crs).to_string() if crs else "none"
+
+
 def assess(inputs: RunInputs, out: str | Path, settings: Settings | None = None, *,
            overwrite: bool = False, table: str | Path | None = None,
-           progress: ProgressCallback | None = None) -> Result:
-    """Assess one levee line and write the GeoPackage (and the deficit table)."""
+           progress: ProgressCallback | None = None,
+           report: str | Path | None = None) -> Result:
+    """Assess one levee line; write the GeoPackage, the deficit tables (CSV, XLSX), a report."""
     from .outputs import refuse_overwrite, write_deficit_table, write_geopackage
+    from .outputs.style import sld_paths
+    from .outputs.table import stretch_table_path, write_stretch_table
+    from .outputs.workbook import write_result_workbook
 
     out = Path(out)
     table = Path(table) if table else out.with_suffix(".csv")
-    for p in (out, table):
+    extra = [stretch_table_path(table), table.with_suffix(".xlsx"), *sld_paths(out).values()]
+    for p in (out, table, *extra, *([Path(report)] if report else [])):
         refuse_overwrite(p, overwrite=overwrite)
     result = run(inputs, settings, progress=progress)
     write_geopackage(result, out, overwrite=overwrite)
     write_deficit_table(result, table, overwrite=overwrite)
-    log.info("wrote %s and %s", out, table)
+    write_stretch_table(result, stretch_table_path(table), overwrite=overwrite)
+    write_result_workbook(result, table.with_suffix(".xlsx"), overwrite=overwrite)
+    if report:
+        from .outputs.report import write_report
+        write_report(out, report, overwrite=overwrite)
+    log.info("wrote %s, %s (+ stretches, .xlsx)%s", out, table, f" and {report}" if report else "")
     return result
 
 

@@ -103,13 +103,16 @@ def main() -> None:
 @click.option("--layer", default=None, help="Line layer of the centreline file.")
 @click.option("--table", default=None, help="Deficit table (CSV); default: next to --out.")
 @click.option("--config", default=None, help="TOML run file with parameters.")
+@click.option("--report", "report_path", default=None,
+              help="Also write the HTML report (self-contained) to this path.")
 @click.option("--overwrite", is_flag=True, help="Replace existing outputs.")
 @click.option("--quiet", is_flag=True, help="Only warnings and errors; no progress bar.")
 @click.option("--debug", is_flag=True, help="Show tracebacks and debug logs.")
 @_settings_options
 def assess(centreline: str, dem: tuple[str, ...], compare: tuple[str, ...], conditions: str,
            out: str, layer: str | None, table: str | None, config: str | None,
-           overwrite: bool, quiet: bool, debug: bool, **params: Any) -> None:
+           report_path: str | None, overwrite: bool, quiet: bool, debug: bool,
+           **params: Any) -> None:
     """Assess a levee line and write a GeoPackage and a deficit table."""
     from .assess import RunInputs, summary
     from .assess import assess as run_assess
@@ -122,7 +125,8 @@ def assess(centreline: str, dem: tuple[str, ...], compare: tuple[str, ...], cond
         dem_path, dem_date, earlier = _epoch_inputs(config, dem, compare)
         result = run_assess(RunInputs(centreline, dem_path, conditions, layer, dem_date=dem_date,
                                       earlier=earlier), out, settings,
-                            overwrite=overwrite, table=table, progress=bar)
+                            overwrite=overwrite, table=table, progress=bar,
+                            report=report_path)
     except FileOverwriteError as exc:
         bar.close()
         _fail(exc, debug, EXIT_OVERWRITE)
@@ -141,6 +145,29 @@ def assess(centreline: str, dem: tuple[str, ...], compare: tuple[str, ...], cond
         if line:
             log.info(line)
     log.info(CAUTION)
+
+
+@main.command()
+@click.argument("results", type=click.Path(dir_okay=False))
+@click.option("--out", default=None, help="HTML file to write; default: RESULTS with .html.")
+@click.option("--overwrite", is_flag=True, help="Replace an existing report.")
+@click.option("--quiet", is_flag=True, help="Only warnings and errors.")
+@click.option("--debug", is_flag=True, help="Show tracebacks and debug logs.")
+def report(results: str, out: str | None, overwrite: bool, quiet: bool, debug: bool) -> None:
+    """Write the self-contained HTML report of a results GeoPackage."""
+    from pathlib import Path
+
+    from .outputs.report import write_report
+
+    _setup_logging(quiet, debug)
+    target = out or str(Path(results).with_suffix(".html"))
+    try:
+        write_report(results, target, overwrite=overwrite)
+    except FileOverwriteError as exc:
+        _fail(exc, debug, EXIT_OVERWRITE)
+    except TrajectoryError as exc:
+        _fail(exc, debug, EXIT_INPUT)
+    log.info("wrote %s", target)
 
 
 def _fail(exc: Exception, debug: bool, code: int) -> None:

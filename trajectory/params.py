@@ -86,6 +86,11 @@ class Settings:
     rate_z: float = _p(1.645, "Standard errors a lowering rate (or a drop between surveys) must "
                        "exceed to count (one-sided; 1.645 = 95 %).",
                        unit="-", min=0.0, min_exclusive=True, max=10.0, group="epochs")
+    # --- stretches and reporting (outputs)
+    min_stretch_length: float = _p(50.0, "Runs of stations shorter than this take the status of a "
+                                   "more severe neighbouring stretch (never a milder one), so "
+                                   "one noisy station does not split a stretch; 0 = off.",
+                                   unit="m", min=0.0, max=10000.0, group="outputs")
     # --- execution
     chunk_size: int = _p(64, "Stations processed together in one chunk (bounds memory).",
                          unit="stations", min=1, max=100000, group="execution")

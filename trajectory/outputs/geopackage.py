@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import contextlib
+import sqlite3
 from pathlib import Path
 
 import geopandas as gpd
@@ -11,10 +13,12 @@ import pyogrio
 import shapely
 from shapely.ops import substring
 
-from ..status import station_extents
-from .atomic import atomic_path
+from .atomic import atomic_path, refuse_overwrite
+from .describe import write_data_columns
 from .epochs_layer import epoch_layer, epoch_stretch_columns
+from .profiles import profile_table, worst_chainages
 from .schema import LAYERS, field_names
+from .style import sld, sld_paths, write_layer_styles
 
 
 def _frame(data: dict, layer: str, geometry, crs) -> gpd.GeoDataFrame:
@@ -69,11 +73,37 @@ def stretch_layer(result, *, start: float, reverse: bool) -> gpd.GeoDataFrame:
     for a, b in zip(s.from_chainage, s.to_chainage):
         lo, hi = sorted((along(a), along(b)))
         geoms.append(substring(line, float(lo), float(hi)))
+    return _frame(_stretch_data(result), "stretches", geoms, result.crs)
+
+
+def _stretch_data(result) -> dict[str, np.ndarray]:
+    s = result.stretches
     data = {"from_chainage": s.from_chainage, "to_chainage": s.to_chainage,
             "length": s.length, "status": s.status, "worst_margin": s.worst_margin,
-            "worst_chainage": s.worst_chainage, "stations": s.last - s.first + 1}
+            "worst_chainage": s.worst_chainage, "stations": s.last - s.first + 1,
+            "absorbed": _absorbed(result.stations["status"].to_numpy(object), s)}
     data.update(epoch_stretch_columns(result))
-    return _frame(data, "stretches", geoms, result.crs)
+    return data
+
+
+def _absorbed(station_status: np.ndarray, s) -> np.ndarray:
+    """Stations per stretch whose own status differs from the stretch's (minimum-length rule)."""
+    n = s.last - s.first + 1
+    own = np.repeat(np.asarray(s.status, object), n)
+    differs = np.concatenate([[0], np.cumsum(station_status != own)])
+    return differs[s.last + 1] - differs[s.first]
+
+
+def stretch_frame(result) -> pd.DataFrame:
+    """The stretches layer's attributes (no geometry), as the tables and report use them."""
+    return pd.DataFrame(_stretch_data(result))[field_names("stretches")]
+
+
+def section_profile_table(result) -> pd.DataFrame:
+    """Profiles of the worst stations (see :mod:`.profiles`)."""
+    ch = worst_chainages(stretch_frame(result), result.stations)
+    return profile_table(result.stations["chainage"].to_numpy(float), result.offsets,
+                         result.profiles, ch)
 
 
 def metadata_table(result) -> pd.DataFrame:
@@ -92,9 +122,20 @@ def write_geopackage(result, path: str | Path, *, overwrite: bool = False) -> Pa
         "stretches": stretch_layer(result, start=start, reverse=reverse),
         "run_metadata": metadata_table(result),
         "epochs": epoch_layer(result),
+        "section_profiles": section_profile_table(result),
     }
     assert set(layers) == set(LAYERS)
+    slds = sld_paths(path)
+    for p in slds.values():
+        refuse_overwrite(p, overwrite=overwrite)
     with atomic_path(path, overwrite=overwrite) as tmp:
         for name, frame in layers.items():
             pyogrio.write_dataframe(frame, tmp, layer=name, driver="GPKG")
+        # field descriptions and default styles, inside the temp file before the rename
+        with contextlib.closing(sqlite3.connect(tmp)) as con, con:
+            write_data_columns(con)
+            write_layer_styles(con)
+    for layer, p in slds.items():
+        with atomic_path(p, overwrite=overwrite) as tmp:
+            tmp.write_text(sld(layer), encoding="utf-8")
     return Path(path)

@@ -117,6 +117,18 @@ STRETCH_FIELDS: tuple[Field, ...] = (
 )
 STRETCH_FIELDS = STRETCH_FIELDS + EPOCH_STRETCH_FIELDS
 
+# --- outputs for the asset manager (stretch rule, report profiles)
+STRETCH_FIELDS = STRETCH_FIELDS + (
+    _f("absorbed", "int", "",
+       "Stations of a milder status counted in this stretch by the minimum stretch length rule"),
+)
+
+SECTION_PROFILE_FIELDS: tuple[Field, ...] = (
+    _f("chainage", "float", "m", "Chainage of the station (worst station of a severe stretch)"),
+    _f("offset", "float", "m", "Offset from the centreline, + towards the water"),
+    _f("level", "float", "m", "Ground level sampled from the DEM (NaN: nodata)"),
+)
+
 METADATA_FIELDS: tuple[Field, ...] = (
     _f("key", "str", "", "Item of the run's metadata"),
     _f("value", "str", "", "Its value"),
@@ -130,6 +142,7 @@ LAYERS: dict[str, tuple[str | None, tuple[Field, ...]]] = {
     "stretches": ("LineString", STRETCH_FIELDS),
     "run_metadata": (None, METADATA_FIELDS),
     "epochs": ("Point", EPOCH_FIELDS),
+    "section_profiles": (None, SECTION_PROFILE_FIELDS),
 }
 
 

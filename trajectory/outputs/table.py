@@ -22,3 +22,22 @@ def write_deficit_table(result, path: str | Path, *, overwrite: bool = False) ->
             fh.write(f"# {CAUTION}\n")
             df.to_csv(fh, index=False, float_format="%.4f")
     return Path(path)
+
+
+def stretch_table_path(table: str | Path) -> Path:
+    """The stretch table goes beside the station table: ``<stem>_stretches.csv``."""
+    t = Path(table)
+    return t.with_name(f"{t.stem}_stretches.csv")
+
+
+def write_stretch_table(result, path: str | Path, *, overwrite: bool = False) -> Path:
+    """Write the stretches, worst margin first, with raise length and fill estimate, as CSV."""
+    from .fill import stretch_table
+    from .geopackage import stretch_frame
+
+    df = stretch_table(deficit_frame(result), stretch_frame(result))
+    with atomic_path(path, overwrite=overwrite) as tmp:
+        with open(tmp, "w", encoding="utf-8", newline="") as fh:
+            fh.write(f"# {CAUTION} Fill volumes are estimates (method in the README).\n")
+            df.to_csv(fh, index=False, float_format="%.4f")
+    return Path(path)

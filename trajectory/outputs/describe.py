@@ -1,0 +1,70 @@
+"""Field descriptions stored in the GeoPackage itself (the GeoPackage schema extension).
+
+The ``gpkg_data_columns`` table gives every field of every contract layer a
+title (name and unit) and its description from :mod:`.schema`, so they travel
+with the file; the `status` fields get an enumeration constraint in
+``gpkg_data_column_constraints``. Table layouts follow the OGC GeoPackage
+1.3 encoding standard, "Schema" extension (``gpkg_schema``).
+"""
+
+from __future__ import annotations
+
+import sqlite3
+
+from ..status import STATUSES
+from .schema import LAYERS
+
+SCHEMA_EXTENSION = "gpkg_schema"
+SCHEMA_DEFINITION = "http://www.geopackage.org/spec/#extension_schema"
+STATUS_CONSTRAINT = "trajectory_status"
+
+_STATUS_MEANING = {
+    "ok": "margin at least the watch band",
+    "watch": "margin between 0 and the watch band",
+    "deficit": "crest below the required level",
+    "no_data": "profile not interpretable",
+}
+
+_DDL = (
+    """CREATE TABLE IF NOT EXISTS gpkg_extensions (
+        table_name TEXT, column_name TEXT, extension_name TEXT NOT NULL,
+        definition TEXT NOT NULL, scope TEXT NOT NULL,
+        CONSTRAINT ge_tce UNIQUE (table_name, column_name, extension_name))""",
+    """CREATE TABLE IF NOT EXISTS gpkg_data_columns (
+        table_name TEXT NOT NULL, column_name TEXT NOT NULL, name TEXT, title TEXT,
+        description TEXT, mime_type TEXT, constraint_name TEXT,
+        CONSTRAINT pk_gdc PRIMARY KEY (table_name, column_name),
+        CONSTRAINT gdc_tn UNIQUE (table_name, name))""",
+    """CREATE TABLE IF NOT EXISTS gpkg_data_column_constraints (
+        constraint_name TEXT NOT NULL, constraint_type TEXT NOT NULL, value TEXT,
+        min NUMERIC, min_is_inclusive BOOLEAN, max NUMERIC, max_is_inclusive BOOLEAN,
+        description TEXT,
+        CONSTRAINT gdcc_ntv UNIQUE (constraint_name, constraint_type, value))""",
+)
+
+
+def _title(name: str, unit: str) -> str:
+    return f"{name} [{unit}]" if unit and unit != "-" else name
+
+
+def write_data_columns(con: sqlite3.Connection) -> int:
+    """Describe every field of every contract layer present; return the rows written."""
+    for ddl in _DDL:
+        con.execute(ddl)
+    for table in ("gpkg_data_columns", "gpkg_data_column_constraints"):
+        con.execute("INSERT OR REPLACE INTO gpkg_extensions VALUES (?, NULL, ?, ?, 'read-write')",
+                    (table, SCHEMA_EXTENSION, SCHEMA_DEFINITION))
+    for status in STATUSES:
+        con.execute("INSERT OR REPLACE INTO gpkg_data_column_constraints (constraint_name, "
+                    "constraint_type, value, description) VALUES (?, 'enum', ?, ?)",
+                    (STATUS_CONSTRAINT, status, _STATUS_MEANING[status]))
+    present = {r[0] for r in con.execute("SELECT table_name FROM gpkg_contents")}
+    rows = [
+        (layer, f.name, f.name, _title(f.name, f.unit),
+         f"{f.description} ({f.unit})" if f.unit and f.unit != "-" else f.description,
+         STATUS_CONSTRAINT if f.name == "status" else None)
+        for layer, (_, fields) in LAYERS.items() if layer in present for f in fields
+    ]
+    con.executemany("INSERT OR REPLACE INTO gpkg_data_columns (table_name, column_name, name, "
+                    "title, description, constraint_name) VALUES (?, ?, ?, ?, ?, ?)", rows)
+    return len(rows)

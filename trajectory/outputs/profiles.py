@@ -1,0 +1,46 @@
+"""The cross-section profiles kept in the GeoPackage for the report.
+
+The report is built from the GeoPackage alone (``trajectory report
+RESULTS.gpkg``), so the profiles it draws are stored in the
+``section_profiles`` table: those of the worst station of each of the most
+severe stretches, at most :data:`REPORT_PROFILES` of them. Storing them keeps
+the report independent of where the DEM is (or whether it still exists).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+#: number of worst stations whose profiles are kept and drawn
+REPORT_PROFILES = 6
+
+
+def worst_chainages(stretches: pd.DataFrame, stations: pd.DataFrame, *,
+                    n: int = REPORT_PROFILES) -> np.ndarray:
+    """Chainage of the worst station of each deficit or watch stretch, worst first (<= n).
+
+    With no such stretch, the station with the smallest margin stands in, so a
+    report always shows at least one section where any is readable.
+    """
+    bad = stretches[stretches["status"].isin(["deficit", "watch"])
+                    & np.isfinite(stretches["worst_margin"])]
+    bad = bad.sort_values("worst_margin", kind="stable")
+    ch = bad["worst_chainage"].to_numpy(float)[:n]
+    if ch.size == 0:
+        m = stations["margin"].to_numpy(float)
+        if np.isfinite(m).any():
+            ch = np.array([stations["chainage"].to_numpy(float)[int(np.nanargmin(m))]])
+    return ch
+
+
+def profile_table(chainage: np.ndarray, offsets: np.ndarray, profiles: np.ndarray,
+                  chosen: np.ndarray) -> pd.DataFrame:
+    """Long table (chainage, offset, level) of the profiles at the ``chosen`` chainages."""
+    idx = np.flatnonzero(np.isin(np.asarray(chainage, float), chosen))
+    k = offsets.size
+    return pd.DataFrame({
+        "chainage": np.repeat(np.asarray(chainage, float)[idx], k),
+        "offset": np.tile(np.asarray(offsets, float), idx.size),
+        "level": np.asarray(profiles, float)[idx].ravel(),
+    })
