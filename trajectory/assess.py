@@ -28,10 +28,10 @@ from .chainage import Stations, make_stations
 from .errors import InputError, ParameterError
 from .params import Settings
 from .profile import flag_text, read_profiles
-from .requirement import StationConditions, required_level
+from .requirement import STATION_COLUMNS, StationConditions, required_level, station_conditions
 from .sections import sample_profiles, section_offsets
 from .sources import (
-    Conditions, DemInfo, check_conditions_cover, file_checksum, line_bounds_overlap,
+    Conditions, DemInfo, assign_sections, file_checksum, line_bounds_overlap,
     open_dem, read_centreline, read_conditions,
 )
 from .status import Stretches, classify, merge_stretches
@@ -49,6 +49,7 @@ class RunInputs:
     dem: str
     conditions: str
     layer: str | None = None
+    conditions_layer: str | None = None
 
 
 @dataclass
@@ -120,10 +121,9 @@ def _map(fn: Callable, items: list, workers: int) -> Iterator:
 
 
 # ---------------------------------------------------------------- pipeline
-def _gather_conditions(cond: Conditions, idx: np.ndarray) -> StationConditions:
-    t = cond.table
-    cols = {c: t[c].to_numpy(float)[idx] for c in StationConditions.__dataclass_fields__}
-    return StationConditions(**cols)
+def _gather_conditions(cond: Conditions, idx: np.ndarray,
+                       chainage: np.ndarray) -> StationConditions:
+    return station_conditions(cond.table, idx, chainage)
 
 
 def _water_side(cond: Conditions, idx: np.ndarray, default: str) -> np.ndarray:
@@ -144,12 +144,13 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
         raise InputError(f"{inputs.centreline}: the centreline does not overlap the DEM "
                          f"{inputs.dem}; check that both cover the same area and CRS")
     # read and validate the section conditions
-    cond = read_conditions(inputs.conditions)
+    cond = read_conditions(inputs.conditions, layer=inputs.conditions_layer,
+                           target_crs=dem.crs)
     # stations at fixed chainage with smoothed normals
     st = make_stations(line, spacing=s.spacing, start_chainage=s.start_chainage,
                        reverse=s.reverse, smooth_length=s.smooth_length)
-    check_conditions_cover(cond, st.chainage, source=inputs.conditions)
-    sec = cond.lookup(st.chainage)
+    # the section of each station: by chainage range, or by polygon (spatial join)
+    sec, cond = assign_sections(cond, st.chainage, st.x, st.y, source=inputs.conditions)
     side = _water_side(cond, sec, s.water_side)
     step = s.sample_step or dem.cell
     if s.half_width <= s.crest_search:
@@ -160,8 +161,9 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
              offsets.size)
     # sample and interpret the cross-sections chunk by chunk
     slices = _chunks(len(st), s.chunk_size)
-    tasks = [_Chunk(dem.path, st.take(sl), side[sl], _gather_conditions(cond, sec[sl]),
-                    offsets, s) for sl in slices]
+    tasks = [_Chunk(dem.path, st.take(sl), side[sl],
+                    _gather_conditions(cond, sec[sl], st.chainage[sl]), offsets, s)
+             for sl in slices]
     parts: list[dict[str, np.ndarray]] = []
     done = 0
     for part in _map(_assess_chunk, tasks, s.workers):
@@ -194,9 +196,9 @@ def _station_table(st: Stations, side: np.ndarray, cond: Conditions, sec: np.nda
         "required_level": cols["required_level"],
         "margin": cols["margin"],
         "status": status,
-        "water_level": t["water_level"].to_numpy(float)[sec],
-        "sea_level_rise": t["sea_level_rise"].to_numpy(float)[sec],
-        "settlement": t["settlement"].to_numpy(float)[sec],
+        "water_level": cols["water_level"],
+        "sea_level_rise": cols["sea_level_rise"],
+        "settlement": cols["settlement"],
         "freeboard": cols["freeboard"],
         "freeboard_eurotop": cols["freeboard_eurotop"],
         "freeboard_rule": cols["freeboard_rule"],
@@ -221,6 +223,8 @@ def _station_table(st: Stations, side: np.ndarray, cond: Conditions, sec: np.nda
         "crest_x": crest_x, "crest_y": crest_y,
         "along": st.along,
     })
+    for name in STATION_COLUMNS:  # every further term of the requirement, for audit
+        df[name] = cols[name]
     return df
 
 

@@ -85,7 +85,10 @@ def main() -> None:
 @main.command()
 @click.option("--centreline", required=True, help="Levee centreline (any OGR line format).")
 @click.option("--dem", required=True, help="Terrain model (any GDAL raster, VRT mosaics too).")
-@click.option("--conditions", required=True, help="Section conditions table (CSV).")
+@click.option("--conditions", required=True,
+              help="Section conditions: CSV, GeoPackage table or section polygons.")
+@click.option("--conditions-layer", default=None,
+              help="Layer of the conditions file, when it has several.")
 @click.option("--out", required=True, help="Output GeoPackage.")
 @click.option("--layer", default=None, help="Line layer of the centreline file.")
 @click.option("--table", default=None, help="Deficit table (CSV); default: next to --out.")
@@ -94,8 +97,8 @@ def main() -> None:
 @click.option("--quiet", is_flag=True, help="Only warnings and errors; no progress bar.")
 @click.option("--debug", is_flag=True, help="Show tracebacks and debug logs.")
 @_settings_options
-def assess(centreline: str, dem: str, conditions: str, out: str, layer: str | None,
-           table: str | None, config: str | None, overwrite: bool, quiet: bool,
+def assess(centreline: str, dem: str, conditions: str, conditions_layer: str | None,
+           out: str, layer: str | None, table: str | None, config: str | None, overwrite: bool, quiet: bool,
            debug: bool, **params: Any) -> None:
     """Assess a levee line and write a GeoPackage and a deficit table."""
     from .assess import RunInputs, summary
@@ -105,7 +108,8 @@ def assess(centreline: str, dem: str, conditions: str, out: str, layer: str | No
     bar = _Progress(quiet)
     try:
         settings = _build_settings(config, params)
-        result = run_assess(RunInputs(centreline, dem, conditions, layer), out, settings,
+        result = run_assess(RunInputs(centreline, dem, conditions, layer,
+                                      conditions_layer), out, settings,
                             overwrite=overwrite, table=table, progress=bar)
     except FileOverwriteError as exc:
         bar.close()
