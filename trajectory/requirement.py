@@ -140,8 +140,8 @@ def required_level(
         Outer slope as cotangent n of 1:n (used when ``tan_alpha`` is None).
     crest_level : ndarray
         Measured crest level, m, for ``q_at_crest``.
-    approach : {"design", "mean"}
-        EurOtop (2018) coefficient set (Eq. 5.12/5.13 or 5.10/5.11).
+    approach : {"design", "mean", "taw2002_design", "taw2002_mean"}
+        Coefficient set, :data:`trajectory.hydraulics.COEFFICIENTS`.
     tan_alpha : ndarray, optional
         Characteristic slope tangent (EurOtop 2018 section 5.3.3); default
         ``1 / outer_slope``.
