@@ -287,8 +287,10 @@ def validate_conditions(raw: pd.DataFrame, *, spatial: bool = False,
         if m == "constant" and not np.isfinite(out["fixed_freeboard"].iloc[i]):
             findings.append(f"{row(i)}, column fixed_freeboard: empty; freeboard_method "
                             "constant needs it")
-    from_tp = np.isfinite(out["tp"].to_numpy(float)) & ~np.isfinite(out["tm10"].to_numpy(float))
+    tp = out["tp"].to_numpy(float)
+    from_tp = np.isfinite(tp) & ~np.isfinite(out["tm10"].to_numpy(float))
     out["period_from_tp"] = from_tp
+    from_tp = from_tp & (np.nan_to_num(tp) > 0)  # bad periods are already findings
     if from_tp.any():
         out.loc[from_tp, "tm10"] = np.asarray(hy.tm10_from_tp(out.loc[from_tp, "tp"].to_numpy()))
 
