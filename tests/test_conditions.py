@@ -8,6 +8,8 @@ against the published tables named beside the checks.
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import geopandas as gpd
 import numpy as np
 import pandas as pd
@@ -204,6 +206,11 @@ def test_roughness_names_match_published_table(tmp_path):
             for i, name in enumerate(hy.ROUGHNESS)]
     t = read_conditions(_csv(tmp_path, rows)).table
     assert t["roughness"].tolist() == list(hy.ROUGHNESS.values())
+    # the README documents every name and value of the table
+    readme = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
+    for name, value in hy.ROUGHNESS.items():
+        line = next(r for r in readme.splitlines() if f"`{name}`" in r and r.startswith("|"))
+        assert float(line.split("|")[-2]) == value, name
 
 
 def test_demo_with_section_polygons_matches_the_table(demo, demo_result, tmp_path):
