@@ -236,7 +236,7 @@ def test_demo_with_section_polygons_matches_the_table(demo, demo_result, tmp_pat
                                   (st.x[i] + 80 * st.nx[i], st.y[i] + 80 * st.ny[i])]
                                  for i in k]))
     mids = [line.interpolate((a + b) / 2) for a, b in
-            zip(table["from_chainage"], table["to_chainage"])]
+            zip(table["from_chainage"], table["to_chainage"], strict=True)]
     polys = [next(p for p in pieces.geoms if p.contains(m)) for m in mids]
     gdf = gpd.GeoDataFrame(table.drop(columns=["from_chainage", "to_chainage"]),
                            geometry=polys, crs=gpd.read_file(demo["centreline"]).crs)
@@ -250,3 +250,31 @@ def test_demo_with_section_polygons_matches_the_table(demo, demo_result, tmp_pat
     np.testing.assert_allclose(a["required_level"][off], b["required_level"][off])
     on = ~off
     assert set(b["section_id"][on]) <= set(table["section_id"])
+
+
+def test_cli_reads_a_geopackage_layer_with_tp_and_revetment_names(demo, demo_result, tmp_path):
+    # The same conditions written as Tp = 1.1 Tm-1,0 (EurOtop 2018, common practice)
+    # and revetment names for the numbers (EurOtop 2018 Table 5.2: grass 1.0,
+    # basalt 0.9, from memory) give the same required levels as the demo table.
+    from click.testing import CliRunner
+
+    from trajectory.cli import main
+
+    result, _ = demo_result
+    t = pd.read_csv(demo["sections"])
+    t["tp"] = t.pop("tm10") * 1.1
+    t["roughness"] = t["roughness"].map({1.0: "grass", 0.9: "Basalt"})
+    assert t["roughness"].notna().all()
+    gpkg = tmp_path / "conditions.gpkg"
+    pyogrio.write_dataframe(t, gpkg, layer="sections", driver="GPKG")
+    pyogrio.write_dataframe(t.iloc[:1], gpkg, layer="draft", driver="GPKG")
+    out = tmp_path / "r.gpkg"
+    args = ["assess", "--centreline", str(demo["centreline"]), "--dem", str(demo["dem"]),
+            "--conditions", str(gpkg), "--conditions-layer", "sections", "--out", str(out),
+            "--quiet"]
+    res = CliRunner().invoke(main, args)
+    assert res.exit_code == 0, res.output
+    st = pyogrio.read_dataframe(out, layer="stations", read_geometry=False)
+    assert (st["period_source"] == "tp/1.1").all()
+    np.testing.assert_allclose(st["required_level"], result.stations["required_level"],
+                               rtol=1e-9)

@@ -98,8 +98,8 @@ def main() -> None:
 @click.option("--debug", is_flag=True, help="Show tracebacks and debug logs.")
 @_settings_options
 def assess(centreline: str, dem: str, conditions: str, conditions_layer: str | None,
-           out: str, layer: str | None, table: str | None, config: str | None, overwrite: bool, quiet: bool,
-           debug: bool, **params: Any) -> None:
+           out: str, layer: str | None, table: str | None, config: str | None,
+           overwrite: bool, quiet: bool, debug: bool, **params: Any) -> None:
     """Assess a levee line and write a GeoPackage and a deficit table."""
     from .assess import RunInputs, summary
     from .assess import assess as run_assess

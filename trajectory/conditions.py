@@ -337,7 +337,7 @@ def _polygon_findings(polys: np.ndarray, ids: np.ndarray, row_base: int) -> list
         return findings
     tree = shapely.STRtree(polys)
     left, right = tree.query(polys, predicate="intersects")
-    for i, j in zip(left, right):
+    for i, j in zip(left, right, strict=True):
         if i < j:
             area = shapely.area(shapely.intersection(polys[i], polys[j]))
             if area > 1e-3:
