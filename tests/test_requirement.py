@@ -19,7 +19,7 @@ from hypothesis import strategies as st
 from trajectory import hydraulics as hy
 from trajectory.requirement import (
     H1PCT_OVER_HM0, METHODS, STATION_COLUMNS, Requirement, StationConditions,
-    required_level, station_conditions,
+    profile_berm, required_level, station_conditions,
 )
 
 G = 9.81
@@ -91,6 +91,17 @@ def test_berm_gives_published_gamma_b_and_lowers_freeboard():
     # NaN berm (none found in the profile) -> no influence
     none = _req(c, berm_width=np.array([np.nan]), berm_level=np.array([np.nan]))
     assert none.gamma_b[0] == 1.0
+
+
+def test_profile_berm_keywords():
+    # Interface agreement: berm fields of the profile metrics, when present, feed γb
+    from types import SimpleNamespace
+
+    assert profile_berm(SimpleNamespace(outer_slope=np.array([3.0]))) == {}
+    kw = profile_berm(SimpleNamespace(outer_berm_width=np.array([5.0]),
+                                      outer_berm_level=np.array([4.0])))
+    r = _req(_cond(1), **kw)
+    assert r.gamma_b[0] == pytest.approx(0.748955, rel=1e-5)  # hand value above
 
 
 def test_q_at_crest_and_runup_level():

@@ -28,7 +28,9 @@ from .chainage import Stations, make_stations
 from .errors import InputError, ParameterError
 from .params import Settings
 from .profile import flag_text, read_profiles
-from .requirement import STATION_COLUMNS, StationConditions, required_level, station_conditions
+from .requirement import (
+    STATION_COLUMNS, StationConditions, profile_berm, required_level, station_conditions,
+)
 from .sections import sample_profiles, section_offsets
 from .sources import (
     Conditions, DemInfo, assign_sections, file_checksum, line_bounds_overlap,
@@ -97,7 +99,8 @@ def _assess_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
                          crest_search=s.crest_search, crest_tolerance=s.crest_tolerance,
                          max_nodata=s.max_nodata)
     req = required_level(chunk.conditions, outer_slope=prof.outer_slope,
-                         crest_level=prof.crest_level, approach=s.approach)
+                         crest_level=prof.crest_level, approach=s.approach,
+                         **profile_berm(prof))
     margin = prof.crest_level - req.required_level
     out = {f: getattr(prof, f) for f in prof.__dataclass_fields__}
     out.update({f: getattr(req, f) for f in req.__dataclass_fields__})

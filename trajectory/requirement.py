@@ -121,6 +121,19 @@ STATION_COLUMNS: tuple[str, ...] = (
 )
 
 
+def profile_berm(prof: object) -> dict[str, np.ndarray]:
+    """``berm_width`` and ``berm_level`` keywords from profile metrics, if it has them.
+
+    Reads ``outer_berm_width`` and ``outer_berm_level`` (NaN where no berm);
+    returns ``{}`` for metrics without berm fields, so no berm factor is applied.
+    """
+    width = getattr(prof, "outer_berm_width", None)
+    level = getattr(prof, "outer_berm_level", None)
+    if width is None or level is None:
+        return {}
+    return {"berm_width": np.asarray(width, float), "berm_level": np.asarray(level, float)}
+
+
 def _full(x: object, n: int, dtype: type = float) -> np.ndarray:
     return np.broadcast_to(np.asarray(x, dtype=dtype), (n,)).copy()
 
@@ -147,7 +160,9 @@ def required_level(
         ``1 / outer_slope``.
     berm_width, berm_level : ndarray, optional
         Outer berm found in the profile (NaN where none); gives γb by
-        EurOtop (2018) Eq. 5.33-5.36 (:func:`trajectory.hydraulics.gamma_berm`).
+        EurOtop (2018) Eq. 5.33-5.36 (:func:`trajectory.hydraulics.gamma_berm`),
+        with the slopes below and above the berm both taken as ``tan_alpha`` and,
+        for a berm above still water, x = Ru2% without the berm.
 
     Returns
     -------
