@@ -169,6 +169,10 @@ def test_polygons_spatial_join(tmp_path):
     # chainage ranges from the first and last station of each section
     assert cond2.table["from_chainage"].tolist() == [5.0, 105.0, 185.0]
     assert cond2.table["to_chainage"].tolist() == [95.0, 175.0, 295.0]
+    # a station on the shared edge x = 100 goes to the first polygon in file order
+    edge, _ = assign_sections(cond, np.array([100.0]), np.array([100.0]), np.zeros(1),
+                              source="p.gpkg")
+    assert edge.tolist() == [0]
     # a station outside every polygon: a gap, refused
     with pytest.raises(ConditionsError, match="no section polygon"):
         assign_sections(cond, np.array([0.0, 350.0]), np.array([50.0, 350.0]),

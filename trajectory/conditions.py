@@ -382,9 +382,10 @@ def assign_sections(cond: Conditions, chainage: np.ndarray, x: np.ndarray, y: np
     pts = shapely.points(np.asarray(x, float), np.asarray(y, float))
     tree = shapely.STRtree(cond.polygons)
     st_i, poly_i = tree.query(pts, predicate="intersects")
-    idx = np.full(chainage.size, -1, dtype=int)
-    order = np.lexsort((poly_i, st_i))[::-1]  # last write wins: lowest polygon per station
-    idx[st_i[order]] = poly_i[order]
+    big = len(cond.polygons)
+    idx = np.full(chainage.size, big, dtype=np.int64)
+    np.minimum.at(idx, st_i, poly_i)  # the first polygon in file order per station
+    idx[idx == big] = -1
     if (idx < 0).any():
         out = chainage[idx < 0]
         raise ConditionsError(source, [
