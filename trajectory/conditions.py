@@ -216,8 +216,8 @@ def validate_conditions(raw: pd.DataFrame, *, spatial: bool = False,
             return pd.Series([""] * n)
         return raw[col].fillna("").astype(str).str.strip()
 
-    def row(i: int) -> str:
-        return f"row {i + row_base}"
+    def row(i: int | np.integer) -> str:
+        return f"row {int(i) + row_base}"
 
     out = pd.DataFrame({"section_id": text("section_id")})
     for col, (lo, hi, excl) in _NUMERIC_RULES.items():
@@ -253,13 +253,13 @@ def validate_conditions(raw: pd.DataFrame, *, spatial: bool = False,
 
     rough = text("roughness")
     gf = np.ones(n)
-    for i, cell in enumerate(rough):
+    for r, cell in enumerate(rough):
         if cell == "":
             continue
         try:
-            gf[i] = hy.roughness_factor(cell)
+            gf[r] = hy.roughness_factor(cell)
         except (hy.UnknownRevetmentError, hy.ParameterError) as exc:
-            findings.append(f"{row(i)}, column roughness: {exc}")
+            findings.append(f"{row(r)}, column roughness: {exc}")
     out["roughness"] = gf
     out["revetment"] = rough.to_numpy(object)
 
@@ -269,23 +269,23 @@ def validate_conditions(raw: pd.DataFrame, *, spatial: bool = False,
     out["near_structure"] = near.isin(_YES).to_numpy(float)
 
     # what each row's freeboard method needs
-    for i in range(n):
-        m = out["freeboard_method"].iloc[i]
-        has_t, has_p = np.isfinite(out["tm10"].iloc[i]), np.isfinite(out["tp"].iloc[i])
+    for r in range(n):
+        m = out["freeboard_method"].iloc[r]
+        has_t, has_p = np.isfinite(out["tm10"].iloc[r]), np.isfinite(out["tp"].iloc[r])
         if has_t and has_p:
-            findings.append(f"{row(i)}, columns tm10 and tp: give one period, not both")
+            findings.append(f"{row(r)}, columns tm10 and tp: give one period, not both")
         if m in WAVE_METHODS:
-            if not np.isfinite(out["hm0"].iloc[i]):
-                findings.append(f"{row(i)}, column hm0: empty; freeboard_method {m} needs "
+            if not np.isfinite(out["hm0"].iloc[r]):
+                findings.append(f"{row(r)}, column hm0: empty; freeboard_method {m} needs "
                                 "the wave height")
             if not (has_t or has_p):
-                findings.append(f"{row(i)}, columns tm10/tp: both empty; freeboard_method "
+                findings.append(f"{row(r)}, columns tm10/tp: both empty; freeboard_method "
                                 f"{m} needs a wave period")
-        if m == "overtopping" and not np.isfinite(out["q_allow"].iloc[i]):
-            findings.append(f"{row(i)}, column q_allow: empty; freeboard_method overtopping "
+        if m == "overtopping" and not np.isfinite(out["q_allow"].iloc[r]):
+            findings.append(f"{row(r)}, column q_allow: empty; freeboard_method overtopping "
                             "needs the allowed discharge")
-        if m == "constant" and not np.isfinite(out["fixed_freeboard"].iloc[i]):
-            findings.append(f"{row(i)}, column fixed_freeboard: empty; freeboard_method "
+        if m == "constant" and not np.isfinite(out["fixed_freeboard"].iloc[r]):
+            findings.append(f"{row(r)}, column fixed_freeboard: empty; freeboard_method "
                             "constant needs it")
     tp = out["tp"].to_numpy(float)
     from_tp = np.isfinite(tp) & ~np.isfinite(out["tm10"].to_numpy(float))
@@ -311,16 +311,16 @@ def validate_conditions(raw: pd.DataFrame, *, spatial: bool = False,
     for i in np.flatnonzero(bad_span.to_numpy()):
         findings.append(f"{row(i)}, column to_chainage: must be greater than from_chainage")
     out = out.sort_values("from_chainage", kind="stable").reset_index(drop=True)
-    lo, hi = out["from_chainage"].to_numpy(), out["to_chainage"].to_numpy()
+    lo_c, hi_c = out["from_chainage"].to_numpy(), out["to_chainage"].to_numpy()
     for k in range(1, len(out)):
         a, b = out.iloc[k - 1], out.iloc[k]
-        if lo[k] > hi[k - 1] + 1e-6:
+        if lo_c[k] > hi_c[k - 1] + 1e-6:
             findings.append(f"gap in chainage between section {a.section_id!r} (row {a._row}, "
-                            f"to {hi[k - 1]:g} m) and {b.section_id!r} (row {b._row}, from "
-                            f"{lo[k]:g} m)")
-        elif lo[k] < hi[k - 1] - 1e-6:
+                            f"to {hi_c[k - 1]:g} m) and {b.section_id!r} (row {b._row}, from "
+                            f"{lo_c[k]:g} m)")
+        elif lo_c[k] < hi_c[k - 1] - 1e-6:
             findings.append(f"sections {a.section_id!r} (row {a._row}) and {b.section_id!r} "
-                            f"(row {b._row}) overlap ({lo[k]:g}-{hi[k - 1]:g} m)")
+                            f"(row {b._row}) overlap ({lo_c[k]:g}-{hi_c[k - 1]:g} m)")
     return out, findings
 
 

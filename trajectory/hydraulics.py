@@ -8,7 +8,9 @@ Units: metres, seconds, degrees. Discharge ``q`` is in m³/s per metre of crest
 
 Sources: EurOtop (2018), *Manual on wave overtopping of sea defences and related
 structures*, 2nd edition, chapter 5 (equation and table numbers quoted from
-memory, see each docstring); 44 CFR 65.10(b)(1) for the fixed freeboards.
+memory, see each docstring); TAW (2002), *Technical report wave run-up and
+wave overtopping at dikes*, for the predecessor coefficient sets; 44 CFR
+65.10(b)(1) for the fixed freeboards.
 NaN inputs propagate to NaN outputs; other invalid inputs raise
 :class:`~trajectory.errors.ParameterError`.
 """

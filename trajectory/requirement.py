@@ -24,6 +24,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -203,7 +204,7 @@ def required_level(
                                        | (bw > 0.25 * np.asarray(hy.wavelength_deep(t))))
     q_allow = _full(cond.q_allow, n) / LPS_PER_M3S
     qa = np.where(np.isfinite(q_allow) & (q_allow > 0), q_allow, 1.0)
-    kw = dict(gamma_b=g_b, gamma_f=g_f, gamma_beta=g_beta, approach=approach)
+    kw: dict[str, Any] = dict(gamma_b=g_b, gamma_f=g_f, gamma_beta=g_beta, approach=approach)
     fb_e = _full(hy.freeboard_for_discharge(qa, h, t, ta, **kw), n)
     ok_e = waves & np.isfinite(tan_a) & np.isfinite(q_allow) & (q_allow > 0)
     fb_e = np.where(ok_e, fb_e, np.nan)
