@@ -283,3 +283,23 @@ def test_monotonic_in_q_hm0_and_slope(hm0, cot, q):
     assert _req(_cond(1, hm0=hm0, q_allow=q * 1.5), slope=cot).required_level[0] <= r
     assert _req(_cond(1, hm0=hm0 * 1.1, q_allow=q), slope=cot).required_level[0] >= r
     assert _req(_cond(1, hm0=hm0, q_allow=q), slope=cot * 1.1).required_level[0] <= r
+
+
+def test_demo_stations_carry_every_term(demo_result):
+    # Definition (README): the terms add up per station, and each is a station field
+    from trajectory.outputs.schema import field_names
+
+    result, _ = demo_result
+    st = result.stations
+    assert set(STATION_COLUMNS) <= set(field_names("stations"))
+    ok = st["required_level"].notna()
+    assert ok.sum() > 100
+    np.testing.assert_allclose(
+        st.loc[ok, "required_level"],
+        st.loc[ok, ["water_level", "sea_level_rise", "freeboard", "settlement"]].sum(axis=1))
+    assert (st.loc[ok, "freeboard_method"] == "overtopping").all()
+    assert (st.loc[ok, "period_source"] == "tm10").all()
+    # runup_level is still water + Ru2% (EurOtop 2018 Eq. 5.2)
+    np.testing.assert_allclose(st.loc[ok, "runup_level"],
+                               st.loc[ok, "water_level"] + st.loc[ok, "sea_level_rise"]
+                               + st.loc[ok, "freeboard_runup"])
