@@ -303,3 +303,35 @@ def test_demo_stations_carry_every_term(demo_result):
     np.testing.assert_allclose(st.loc[ok, "runup_level"],
                                st.loc[ok, "water_level"] + st.loc[ok, "sea_level_rise"]
                                + st.loc[ok, "freeboard_runup"])
+
+
+def test_demo_with_a_method_per_section(demo, tmp_path):
+    # Each section of the demo given another rule; the freeboards are the rules' own
+    # values: constant as given, 44 CFR 65.10(b)(1)(i) 3 ft = 0.9144 m (4 ft = 1.2192 m
+    # near structures), 2 % run-up EurOtop (2018) Eq. 5.2 - and the GeoPackage and
+    # deficit table take every column.
+    import pyogrio
+
+    from trajectory.assess import RunInputs, assess
+
+    t = pd.read_csv(demo["sections"])
+    t["freeboard_method"] = ["constant", "cfr_riverine", "runup", "cfr_riverine"]
+    t["fixed_freeboard"] = [1.1, np.nan, np.nan, np.nan]
+    t["near_structure"] = ["", "", "", "yes"]
+    t["min_freeboard"] = 0.0
+    path = tmp_path / "methods.csv"
+    t.to_csv(path, index=False)
+    out = tmp_path / "r.gpkg"
+    res = assess(RunInputs(str(demo["centreline"]), str(demo["dem"]), str(path)), out)
+    st = res.stations[res.stations["required_level"].notna()]
+    by = {sid: g for sid, g in st.groupby("section_id")}
+    ids = list(t["section_id"])
+    np.testing.assert_allclose(by[ids[0]]["freeboard"], 1.1)
+    np.testing.assert_allclose(by[ids[1]]["freeboard"], 0.9144, atol=1e-12)
+    np.testing.assert_allclose(by[ids[3]]["freeboard"], 1.2192, atol=1e-12)
+    np.testing.assert_allclose(by[ids[3]]["freeboard_fixed_ft"], 4.0)
+    np.testing.assert_allclose(by[ids[2]]["freeboard"], by[ids[2]]["freeboard_runup"])
+    back = pyogrio.read_dataframe(out, layer="stations", read_geometry=False)
+    assert set(back["freeboard_rule"].dropna()) <= {"constant", "cfr_riverine", "runup", ""}
+    table = pd.read_csv(out.with_suffix(".csv"), comment="#")
+    assert list(table.columns) == list(back.columns)
