@@ -31,10 +31,12 @@ from .epochs import Epoch, EpochLevels, assess_epochs, check_order
 from .errors import InputError, ParameterError
 from .params import Settings
 from .profile import flag_text, read_profiles
-from .requirement import StationConditions, required_level
+from .requirement import (
+    STATION_COLUMNS, StationConditions, profile_berm, required_level, station_conditions,
+)
 from .sections import sample_profiles, section_offsets
 from .sources import (
-    Conditions, DemInfo, check_conditions_cover, file_checksum, line_bounds_overlap,
+    Conditions, DemInfo, assign_sections, file_checksum, line_bounds_overlap,
     open_dem, read_centreline, read_conditions,
 )
 from .status import Stretches, classify, merge_stretches
@@ -54,6 +56,7 @@ class RunInputs:
     layer: str | None = None
     dem_date: str | None = None        # survey date of `dem` (needed with earlier epochs)
     earlier: tuple[Epoch, ...] = ()    # earlier surveys, oldest first
+    conditions_layer: str | None = None
 
 
 @dataclass
@@ -102,7 +105,8 @@ def _assess_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
                          crest_search=s.crest_search, crest_tolerance=s.crest_tolerance,
                          max_nodata=s.max_nodata)
     req = required_level(chunk.conditions, outer_slope=prof.outer_slope,
-                         crest_level=prof.crest_level, approach=s.approach)
+                         crest_level=prof.crest_level, approach=s.approach,
+                         **profile_berm(prof))
     margin = prof.crest_level - req.required_level
     out = {f: getattr(prof, f) for f in prof.__dataclass_fields__}
     out.update({f: getattr(req, f) for f in req.__dataclass_fields__})
@@ -126,10 +130,9 @@ def _map(fn: Callable, items: list, workers: int) -> Iterator:
 
 
 # ---------------------------------------------------------------- pipeline
-def _gather_conditions(cond: Conditions, idx: np.ndarray) -> StationConditions:
-    t = cond.table
-    cols = {c: t[c].to_numpy(float)[idx] for c in StationConditions.__dataclass_fields__}
-    return StationConditions(**cols)
+def _gather_conditions(cond: Conditions, idx: np.ndarray,
+                       chainage: np.ndarray) -> StationConditions:
+    return station_conditions(cond.table, idx, chainage)
 
 
 def _water_side(cond: Conditions, idx: np.ndarray, default: str) -> np.ndarray:
@@ -152,12 +155,13 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
         raise InputError(f"{inputs.centreline}: the centreline does not overlap the DEM "
                          f"{inputs.dem}; check that both cover the same area and CRS")
     # read and validate the section conditions
-    cond = read_conditions(inputs.conditions)
+    cond = read_conditions(inputs.conditions, layer=inputs.conditions_layer,
+                           target_crs=dem.crs)
     # stations at fixed chainage with smoothed normals
     st = make_stations(line, spacing=s.spacing, start_chainage=s.start_chainage,
                        reverse=s.reverse, smooth_length=s.smooth_length)
-    check_conditions_cover(cond, st.chainage, source=inputs.conditions)
-    sec = cond.lookup(st.chainage)
+    # the section of each station: by chainage range, or by polygon (spatial join)
+    sec, cond = assign_sections(cond, st.chainage, st.x, st.y, source=inputs.conditions)
     side = _water_side(cond, sec, s.water_side)
     step = s.sample_step or dem.cell
     if s.half_width <= s.crest_search:
@@ -168,8 +172,9 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
              offsets.size)
     # sample and interpret the cross-sections chunk by chunk
     slices = _chunks(len(st), s.chunk_size)
-    tasks = [_Chunk(dem.path, st.take(sl), side[sl], _gather_conditions(cond, sec[sl]),
-                    offsets, s) for sl in slices]
+    tasks = [_Chunk(dem.path, st.take(sl), side[sl],
+                    _gather_conditions(cond, sec[sl], st.chainage[sl]), offsets, s)
+             for sl in slices]
     parts: list[dict[str, np.ndarray]] = []
     done = 0
     for part in _map(_assess_chunk, tasks, s.workers):
@@ -256,9 +261,9 @@ def _station_table(st: Stations, side: np.ndarray, cond: Conditions, sec: np.nda
         "required_level": cols["required_level"],
         "margin": cols["margin"],
         "status": status,
-        "water_level": t["water_level"].to_numpy(float)[sec],
-        "sea_level_rise": t["sea_level_rise"].to_numpy(float)[sec],
-        "settlement": t["settlement"].to_numpy(float)[sec],
+        "water_level": cols["water_level"],
+        "sea_level_rise": cols["sea_level_rise"],
+        "settlement": cols["settlement"],
         "freeboard": cols["freeboard"],
         "freeboard_eurotop": cols["freeboard_eurotop"],
         "freeboard_rule": cols["freeboard_rule"],
@@ -283,6 +288,8 @@ def _station_table(st: Stations, side: np.ndarray, cond: Conditions, sec: np.nda
         "crest_x": crest_x, "crest_y": crest_y,
         "along": st.along,
     })
+    for name in STATION_COLUMNS:  # every further term of the requirement, for audit
+        df[name] = cols[name]
     return df
 
 

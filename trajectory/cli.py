@@ -98,7 +98,10 @@ def main() -> None:
               "status); or a list `dem` under [inputs] in the run file.")
 @click.option("--compare", multiple=True, help="Earlier result GeoPackage of the same line as "
               "DATE=OLD.gpkg (repeatable, oldest first); stations matched by chainage.")
-@click.option("--conditions", required=True, help="Section conditions table (CSV).")
+@click.option("--conditions", required=True,
+              help="Section conditions: CSV, GeoPackage table or section polygons.")
+@click.option("--conditions-layer", default=None,
+              help="Layer of the conditions file, when it has several.")
 @click.option("--out", required=True, help="Output GeoPackage.")
 @click.option("--layer", default=None, help="Line layer of the centreline file.")
 @click.option("--table", default=None, help="Deficit table (CSV); default: next to --out.")
@@ -110,9 +113,9 @@ def main() -> None:
 @click.option("--debug", is_flag=True, help="Show tracebacks and debug logs.")
 @_settings_options
 def assess(centreline: str, dem: tuple[str, ...], compare: tuple[str, ...], conditions: str,
-           out: str, layer: str | None, table: str | None, config: str | None,
-           report_path: str | None, overwrite: bool, quiet: bool, debug: bool,
-           **params: Any) -> None:
+           conditions_layer: str | None, out: str, layer: str | None, table: str | None,
+           config: str | None, report_path: str | None, overwrite: bool, quiet: bool,
+           debug: bool, **params: Any) -> None:
     """Assess a levee line and write a GeoPackage and a deficit table."""
     from .assess import RunInputs, summary
     from .assess import assess as run_assess
@@ -124,8 +127,8 @@ def assess(centreline: str, dem: tuple[str, ...], compare: tuple[str, ...], cond
         settings = _build_settings(config, params)
         dem_path, dem_date, earlier = _epoch_inputs(config, dem, compare)
         result = run_assess(RunInputs(centreline, dem_path, conditions, layer, dem_date=dem_date,
-                                      earlier=earlier), out, settings,
-                            overwrite=overwrite, table=table, progress=bar,
+                                      earlier=earlier, conditions_layer=conditions_layer),
+                            out, settings, overwrite=overwrite, table=table, progress=bar,
                             report=report_path)
     except FileOverwriteError as exc:
         bar.close()

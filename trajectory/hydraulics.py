@@ -8,7 +8,9 @@ Units: metres, seconds, degrees. Discharge ``q`` is in m³/s per metre of crest
 
 Sources: EurOtop (2018), *Manual on wave overtopping of sea defences and related
 structures*, 2nd edition, chapter 5 (equation and table numbers quoted from
-memory, see each docstring); 44 CFR 65.10(b)(1) for the fixed freeboards.
+memory, see each docstring); TAW (2002), *Technical report wave run-up and
+wave overtopping at dikes*, for the predecessor coefficient sets; 44 CFR
+65.10(b)(1) for the fixed freeboards.
 NaN inputs propagate to NaN outputs; other invalid inputs raise
 :class:`~trajectory.errors.ParameterError`.
 """
@@ -72,7 +74,10 @@ class ApproachCoefficients:
     Run-up, EurOtop (2018) Eq. 5.1 (mean value) and 5.2 (design), from memory::
 
         Ru2% / Hm0 = r1 γb γf γβ ξ
-        with maximum r2 γf,surging γβ (4 - 1.5 / sqrt(γb ξ))
+        with maximum r2 γf,surging γβ (sa - sb / sqrt(γb ξ))
+
+    TAW (2002) Eq. 22/23 (overtopping, exponent c = 1) and Eq. 3 (run-up)
+    have the same shape (equation numbers from memory).
     """
 
     breaking_a: float
@@ -82,6 +87,8 @@ class ApproachCoefficients:
     runup_r1: float
     runup_r2: float
     exponent_c: float = 1.3
+    surging_a: float = 4.0
+    surging_b: float = 1.5
 
 
 COEFFICIENTS: Mapping[str, ApproachCoefficients] = MappingProxyType(
@@ -104,6 +111,30 @@ COEFFICIENTS: Mapping[str, ApproachCoefficients] = MappingProxyType(
             nonbreaking_e=1.35,
             runup_r1=1.75,
             runup_r2=1.07,
+        ),
+        # TAW (2002) Technical report wave run-up and wave overtopping at dikes,
+        # Eq. 22/23 and Eq. 3, probabilistic (mean) coefficients (from memory).
+        "taw2002_mean": ApproachCoefficients(
+            breaking_a=0.067,
+            breaking_b=4.75,
+            nonbreaking_d=0.2,
+            nonbreaking_e=2.6,
+            runup_r1=1.65,
+            runup_r2=1.0,
+            exponent_c=1.0,
+        ),
+        # TAW (2002) deterministic (design) coefficients, Eq. 24/25 and Eq. 3
+        # with 1.75 and 4.3 - 1.6 / sqrt(ξ) (from memory).
+        "taw2002_design": ApproachCoefficients(
+            breaking_a=0.067,
+            breaking_b=4.3,
+            nonbreaking_d=0.2,
+            nonbreaking_e=2.3,
+            runup_r1=1.75,
+            runup_r2=1.0,
+            exponent_c=1.0,
+            surging_a=4.3,
+            surging_b=1.6,
         ),
     }
 )
@@ -256,8 +287,9 @@ def overtopping_discharge(
     gamma_b, gamma_f, gamma_beta, gamma_v, gamma_star : array_like
         Influence factors for berm, roughness, obliquity, wall on slope and
         storm wall (EurOtop 2018 section 5.4), each in (0, 1].
-    approach : {"design", "mean"}
-        Coefficient set.
+    approach : {"design", "mean", "taw2002_design", "taw2002_mean"}
+        Coefficient set (:data:`COEFFICIENTS`); the TAW (2002) sets are its
+        predecessor formulas with exponent 1, for comparison.
 
     Returns
     -------
@@ -410,7 +442,7 @@ def runup_2pct(
     gb, gf, gbeta = gm["gamma_b"], gm["gamma_f"], gm["gamma_beta"]
     brk = co.runup_r1 * gb * gf * gbeta * xi
     srg = (co.runup_r2 * _arr(gamma_f_surging(gf, xi)) * gbeta
-           * np.maximum(4.0 - 1.5 / np.sqrt(gb * xi), 0.0))
+           * np.maximum(co.surging_a - co.surging_b / np.sqrt(gb * xi), 0.0))
     return _out(np.where(waves, np.minimum(brk, srg) * hs, 0.0))
 
 

@@ -75,8 +75,10 @@ class Settings:
                            unit="fraction", min=0.0, max=1.0, group="profile")
     # --- required level
     approach: str = _p("design", "EurOtop (2018) approach: 'design' (design or assessment, "
-                       "default) or 'mean' (mean value).",
-                       choices=("design", "mean"), group="requirement")
+                       "default) or 'mean' (mean value); 'taw2002_design' or 'taw2002_mean' "
+                       "for the TAW (2002) formulas.",
+                       choices=("design", "mean", "taw2002_design", "taw2002_mean"),
+                       group="requirement")
     watch_band: float = _p(0.10, "Margins from 0 up to this value are 'watch' rather than 'ok'.",
                            unit="m", min=0.0, max=5.0, group="requirement")
     # --- several surveys (epochs)

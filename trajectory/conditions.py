@@ -1,0 +1,404 @@
+"""Section conditions: read, validate and attach them to stations.
+
+An edge module (it touches files). Three forms are accepted:
+
+- a CSV table, one row per section with its chainage range;
+- a non-spatial table in a GeoPackage (same columns);
+- section polygons in a GeoPackage (or any OGR format): the stations are joined
+  to the polygon they lie in, so no chainage range is needed.
+
+Every bad row is reported at once, naming the row, the column and the rule.
+"""
+
+from __future__ import annotations
+
+import logging
+from dataclasses import dataclass, replace
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pyogrio
+import shapely
+from pyproj import CRS
+
+from . import hydraulics as hy
+from .errors import ConditionsError, InputError, InputFileError
+from .requirement import METHODS, WAVE_METHODS
+
+log = logging.getLogger(__name__)
+
+#: Columns every conditions table needs: name -> (unit, rule). The README quotes them.
+CONDITION_COLUMNS: dict[str, tuple[str, str]] = {
+    "section_id": ("", "text, unique"),
+    "from_chainage": ("m", "number (not needed for section polygons)"),
+    "to_chainage": ("m", "number > from_chainage (not needed for section polygons)"),
+    "water_level": ("m (DEM datum)", "number; design water level (at from_chainage)"),
+    "sea_level_rise": ("m", "0 <= number <= 10"),
+    "settlement": ("m", "0 <= number <= 10"),
+}
+#: Optional columns; which of them a row needs depends on its freeboard_method.
+OPTIONAL_COLUMNS: dict[str, tuple[str, str]] = {
+    "water_side": ("", "left or right (relative to the digitised direction)"),
+    "freeboard_method": ("", "one of " + ", ".join(METHODS) + " (empty: overtopping)"),
+    "water_level_end": ("m (DEM datum)", "number; design water level at to_chainage, "
+                                         "interpolated linearly between"),
+    "hm0": ("m", "0 <= number <= 30; needed by overtopping, runup, cfr_coastal"),
+    "tm10": ("s", "0 < number <= 60; spectral period Tm-1,0 (give tm10 or tp)"),
+    "tp": ("s", "0 < number <= 60; peak period, Tm-1,0 = Tp / 1.1 (give tm10 or tp)"),
+    "wave_angle": ("degrees", "0 <= number <= 90 (wave direction vs levee normal; empty: 0)"),
+    "q_allow": ("l/s per m", "0 < number <= 10000; needed by overtopping"),
+    "roughness": ("-", "0 < number <= 1 or a revetment name (empty: 1.0)"),
+    "min_freeboard": ("m", "0 <= number <= 20 (empty: 0)"),
+    "fixed_freeboard": ("m", "0 <= number <= 20; needed by constant"),
+    "near_structure": ("", "yes or no; cfr_riverine: within 100 ft of a structure"),
+    "upstream_share": ("-", "0 <= number <= 1; cfr_riverine: share of the 0.5 ft "
+                            "upstream-end allowance at from_chainage"),
+    "upstream_share_end": ("-", "0 <= number <= 1; the share at to_chainage"),
+}
+_NUMERIC_RULES: dict[str, tuple[float | None, float | None, bool]] = {
+    # column: (min, max, min exclusive)
+    "from_chainage": (None, None, False),
+    "to_chainage": (None, None, False),
+    "water_level": (None, None, False),
+    "water_level_end": (None, None, False),
+    "sea_level_rise": (0.0, 10.0, False),
+    "settlement": (0.0, 10.0, False),
+    "hm0": (0.0, 30.0, False),
+    "tm10": (0.0, 60.0, True),
+    "tp": (0.0, 60.0, True),
+    "wave_angle": (0.0, 90.0, False),
+    "q_allow": (0.0, 1e4, True),
+    "min_freeboard": (0.0, 20.0, False),
+    "fixed_freeboard": (0.0, 20.0, False),
+    "upstream_share": (0.0, 1.0, False),
+    "upstream_share_end": (0.0, 1.0, False),
+}
+_DEFAULTS = {"wave_angle": 0.0, "min_freeboard": 0.0, "upstream_share": 0.0}
+_YES = {"yes", "true", "1", "y"}
+_NO = {"no", "false", "0", "n", ""}
+_TEXT_SUFFIXES = {".csv", ".txt"}
+
+
+@dataclass(frozen=True)
+class Conditions:
+    """Section conditions, one row per section, columnar and validated.
+
+    ``polygons`` holds the section polygons (in the working CRS) when the
+    conditions came as polygons; the table then has no chainage ranges until
+    :func:`assign_sections` fills them from the stations.
+    """
+
+    table: pd.DataFrame  # sorted by from_chainage (tables), index 0..n-1
+    polygons: np.ndarray | None = None
+    source: str = ""
+
+    def lookup(self, chainage: np.ndarray) -> np.ndarray:
+        """Row index of the section covering each chainage; -1 where none does."""
+        t = self.table
+        lo = t["from_chainage"].to_numpy(float)
+        hi = t["to_chainage"].to_numpy(float)
+        i = np.searchsorted(lo, chainage, side="right") - 1
+        ok = (i >= 0) & (chainage <= hi[np.clip(i, 0, None)] + 1e-6)
+        return np.where(ok, i, -1)
+
+
+# ------------------------------------------------------------------ reading
+def read_conditions(path: str | Path, *, layer: str | None = None,
+                    target_crs: CRS | None = None) -> Conditions:
+    """Read and validate the section conditions; report every bad row at once.
+
+    Parameters
+    ----------
+    path : str or Path
+        A CSV, or a vector file (GeoPackage) holding a non-spatial table or a
+        polygon layer.
+    layer : str, optional
+        Layer of a vector file; needed when it has several.
+    target_crs : pyproj.CRS, optional
+        Working CRS the section polygons are reprojected to.
+    """
+    p = Path(path)
+    if not p.exists():
+        raise InputFileError(f"{p}: conditions file not found")
+    polygons = None
+    if p.suffix.lower() in _TEXT_SUFFIXES:
+        try:
+            raw = pd.read_csv(p, dtype=str, skipinitialspace=True, comment="#")
+        except (pd.errors.EmptyDataError, pd.errors.ParserError, UnicodeDecodeError) as exc:
+            raise InputError(f"{p}: cannot read the conditions table ({exc})") from exc
+        row_base = 2  # line number in the file: header is line 1
+    else:
+        raw, polygons = _read_vector(p, layer, target_crs)
+        row_base = 1  # feature number, first is 1
+    raw.columns = [str(c).strip().lower() for c in raw.columns]
+    table, findings = validate_conditions(raw, spatial=polygons is not None, row_base=row_base)
+    if polygons is not None and not findings:
+        findings += _polygon_findings(polygons, table["section_id"].to_numpy(object), row_base)
+    if findings:
+        raise ConditionsError(str(p), findings)
+    if polygons is not None:
+        polygons = polygons[table["_row"].to_numpy(int) - row_base]
+    return Conditions(table=table, polygons=polygons, source=str(p))
+
+
+def _read_vector(p: Path, layer: str | None,
+                 target_crs: CRS | None) -> tuple[pd.DataFrame, np.ndarray | None]:
+    try:
+        layers = [(str(n), g) for n, g in pyogrio.list_layers(p)]
+    except Exception as exc:  # pyogrio raises several kinds for unreadable data
+        raise InputFileError(f"{p}: not a CSV nor a vector file GDAL can read ({exc})") from exc
+    names = [n for n, _ in layers]
+    if layer is None:
+        if len(layers) != 1:
+            raise InputError(f"{p}: {len(layers)} layers ({', '.join(names)}); choose the "
+                             "conditions layer with --conditions-layer")
+        layer = names[0]
+    elif layer not in names:
+        raise InputError(f"{p}: no layer {layer!r}; layers are {', '.join(names)}")
+    gtype = dict(layers)[layer]
+    if not gtype:
+        df = pyogrio.read_dataframe(p, layer=layer, read_geometry=False)
+        return _as_text(pd.DataFrame(df)), None
+    if "Polygon" not in str(gtype):
+        raise InputError(f"{p}: layer {layer!r} holds {gtype} geometry; section conditions "
+                         "need a table without geometry or polygons")
+    gdf = pyogrio.read_dataframe(p, layer=layer)
+    if gdf.crs is None:
+        raise InputError(f"{p}: the section polygons have no coordinate reference system; "
+                         "assign one (e.g. in a GIS) and run again")
+    if target_crs is not None and not CRS.from_user_input(gdf.crs).equals(target_crs):
+        gdf = gdf.to_crs(target_crs)
+    geoms = np.asarray(gdf.geometry.values, dtype=object)
+    return _as_text(pd.DataFrame(gdf.drop(columns=gdf.geometry.name))), geoms
+
+
+def _as_text(df: pd.DataFrame) -> pd.DataFrame:
+    """Every cell as text (or None), so that all sources validate alike."""
+    out = pd.DataFrame(index=df.index)
+    for c in df.columns:
+        out[c] = df[c].map(lambda v: None if v is None or (isinstance(v, float) and np.isnan(v))
+                           else (f"{v:.17g}" if isinstance(v, float) else str(v)))
+    return out.reset_index(drop=True)
+
+
+# --------------------------------------------------------------- validation
+def validate_conditions(raw: pd.DataFrame, *, spatial: bool = False,
+                        row_base: int = 2) -> tuple[pd.DataFrame, list[str]]:
+    """Check a conditions table; return the clean table and every finding.
+
+    Parameters
+    ----------
+    raw : DataFrame
+        Cells as text, lower-case column names.
+    spatial : bool
+        The rows are section polygons: no chainage range is needed, gaps and
+        overlaps are checked on the polygons.
+    row_base : int
+        Number of the first row in messages (2 for a CSV with a header line).
+    """
+    findings: list[str] = []
+    needed = [c for c in CONDITION_COLUMNS
+              if not (spatial and c in ("from_chainage", "to_chainage"))]
+    missing = [c for c in needed if c not in raw.columns]
+    if missing:
+        return raw, [f"missing column(s): {', '.join(missing)}"]
+    known = set(CONDITION_COLUMNS) | set(OPTIONAL_COLUMNS)
+    unknown = [c for c in raw.columns if c not in known]
+    if unknown:
+        log.warning("conditions: ignoring unknown column(s) %s", ", ".join(unknown))
+    if raw.empty:
+        return raw, ["the table has no rows"]
+    n = len(raw)
+
+    def text(col: str) -> pd.Series:
+        if col not in raw.columns:
+            return pd.Series([""] * n)
+        return raw[col].fillna("").astype(str).str.strip()
+
+    def row(i: int | np.integer) -> str:
+        return f"row {int(i) + row_base}"
+
+    out = pd.DataFrame({"section_id": text("section_id")})
+    for col, (lo, hi, excl) in _NUMERIC_RULES.items():
+        if col not in raw.columns:
+            out[col] = np.nan
+            continue
+        cells = text(col)
+        vals = pd.to_numeric(cells, errors="coerce").to_numpy(float)
+        blank = (cells == "").to_numpy()
+        for i in np.flatnonzero(np.isnan(vals) & ~blank):
+            findings.append(f"{row(i)}, column {col}: {cells.iloc[i]!r} is not a number")
+        if col in needed:
+            for i in np.flatnonzero(blank):
+                findings.append(f"{row(i)}, column {col}: empty (a number is required)")
+        with np.errstate(invalid="ignore"):
+            bad = ~np.isfinite(vals) & ~np.isnan(vals)
+            if lo is not None:
+                bad |= (vals < lo) | (excl & (vals == lo))
+            if hi is not None:
+                bad |= vals > hi
+        rule = OPTIONAL_COLUMNS.get(col, CONDITION_COLUMNS.get(col, ("", "")))[1]
+        for i in np.flatnonzero(bad):
+            findings.append(f"{row(i)}, column {col}: {vals[i]:g} breaks the rule {rule}")
+        out[col] = vals
+    for col, value in _DEFAULTS.items():
+        out[col] = out[col].fillna(value)
+
+    method = text("freeboard_method").str.lower().replace("", "overtopping")
+    for i in np.flatnonzero(~method.isin(METHODS).to_numpy()):
+        findings.append(f"{row(i)}, column freeboard_method: {method.iloc[i]!r} breaks the "
+                        f"rule {OPTIONAL_COLUMNS['freeboard_method'][1]}")
+    out["freeboard_method"] = method.to_numpy(object)
+
+    rough = text("roughness")
+    gf = np.ones(n)
+    for r, cell in enumerate(rough):
+        if cell == "":
+            continue
+        try:
+            gf[r] = hy.roughness_factor(cell)
+        except (hy.UnknownRevetmentError, hy.ParameterError) as exc:
+            findings.append(f"{row(r)}, column roughness: {exc}")
+    out["roughness"] = gf
+    out["revetment"] = rough.to_numpy(object)
+
+    near = text("near_structure").str.lower()
+    for i in np.flatnonzero(~near.isin(_YES | _NO).to_numpy()):
+        findings.append(f"{row(i)}, column near_structure: {near.iloc[i]!r} must be yes or no")
+    out["near_structure"] = near.isin(_YES).to_numpy(float)
+
+    # what each row's freeboard method needs
+    for r in range(n):
+        m = out["freeboard_method"].iloc[r]
+        has_t, has_p = np.isfinite(out["tm10"].iloc[r]), np.isfinite(out["tp"].iloc[r])
+        if has_t and has_p:
+            findings.append(f"{row(r)}, columns tm10 and tp: give one period, not both")
+        if m in WAVE_METHODS:
+            if not np.isfinite(out["hm0"].iloc[r]):
+                findings.append(f"{row(r)}, column hm0: empty; freeboard_method {m} needs "
+                                "the wave height")
+            if not (has_t or has_p):
+                findings.append(f"{row(r)}, columns tm10/tp: both empty; freeboard_method "
+                                f"{m} needs a wave period")
+        if m == "overtopping" and not np.isfinite(out["q_allow"].iloc[r]):
+            findings.append(f"{row(r)}, column q_allow: empty; freeboard_method overtopping "
+                            "needs the allowed discharge")
+        if m == "constant" and not np.isfinite(out["fixed_freeboard"].iloc[r]):
+            findings.append(f"{row(r)}, column fixed_freeboard: empty; freeboard_method "
+                            "constant needs it")
+    tp = out["tp"].to_numpy(float)
+    from_tp = np.isfinite(tp) & ~np.isfinite(out["tm10"].to_numpy(float))
+    out["period_from_tp"] = from_tp
+    from_tp = from_tp & (np.nan_to_num(tp) > 0)  # bad periods are already findings
+    if from_tp.any():
+        out.loc[from_tp, "tm10"] = np.asarray(hy.tm10_from_tp(out.loc[from_tp, "tp"].to_numpy()))
+
+    ws = text("water_side").str.lower()
+    for i in np.flatnonzero(~ws.isin(["", "left", "right"]).to_numpy()):
+        findings.append(f"{row(i)}, column water_side: {ws.iloc[i]!r} must be left or right")
+    out["water_side"] = ws.to_numpy(object)
+
+    for i in np.flatnonzero((out["section_id"] == "").to_numpy()):
+        findings.append(f"{row(i)}, column section_id: empty")
+    dup = out["section_id"][out["section_id"].duplicated() & (out["section_id"] != "")]
+    for sid in dup.unique():
+        findings.append(f"section_id {sid!r} appears more than once")
+    out["_row"] = np.arange(row_base, n + row_base)
+    if findings or spatial:
+        return out, findings
+    bad_span = out["to_chainage"] <= out["from_chainage"]
+    for i in np.flatnonzero(bad_span.to_numpy()):
+        findings.append(f"{row(i)}, column to_chainage: must be greater than from_chainage")
+    out = out.sort_values("from_chainage", kind="stable").reset_index(drop=True)
+    lo_c, hi_c = out["from_chainage"].to_numpy(), out["to_chainage"].to_numpy()
+    for k in range(1, len(out)):
+        a, b = out.iloc[k - 1], out.iloc[k]
+        if lo_c[k] > hi_c[k - 1] + 1e-6:
+            findings.append(f"gap in chainage between section {a.section_id!r} (row {a._row}, "
+                            f"to {hi_c[k - 1]:g} m) and {b.section_id!r} (row {b._row}, from "
+                            f"{lo_c[k]:g} m)")
+        elif lo_c[k] < hi_c[k - 1] - 1e-6:
+            findings.append(f"sections {a.section_id!r} (row {a._row}) and {b.section_id!r} "
+                            f"(row {b._row}) overlap ({lo_c[k]:g}-{hi_c[k - 1]:g} m)")
+    return out, findings
+
+
+def _polygon_findings(polys: np.ndarray, ids: np.ndarray, row_base: int) -> list[str]:
+    """Empty, invalid or overlapping section polygons."""
+    findings = []
+    for i, g in enumerate(polys):
+        if g is None or g.is_empty:
+            findings.append(f"row {i + row_base}, geometry: empty polygon")
+        elif not g.is_valid:
+            findings.append(f"row {i + row_base}, geometry: invalid polygon "
+                            f"({shapely.is_valid_reason(g)})")
+    if findings:
+        return findings
+    tree = shapely.STRtree(polys)
+    left, right = tree.query(polys, predicate="intersects")
+    for i, j in zip(left, right, strict=True):
+        if i < j:
+            area = shapely.area(shapely.intersection(polys[i], polys[j]))
+            if area > 1e-3:
+                findings.append(f"section polygons {ids[i]!r} (row {i + row_base}) and "
+                                f"{ids[j]!r} (row {j + row_base}) overlap ({area:.1f} m²)")
+    return findings
+
+
+# ------------------------------------------------------------ to stations
+def check_conditions_cover(cond: Conditions, chainage: np.ndarray, *, source: str) -> None:
+    """Refuse a run whose stations are not all covered by a section."""
+    idx = cond.lookup(chainage)
+    if (idx < 0).any():
+        out = chainage[idx < 0]
+        raise ConditionsError(source, [
+            f"{out.size} station(s) lie outside every section, chainage "
+            f"{out.min():.1f}-{out.max():.1f} m; extend the sections to cover "
+            f"{chainage.min():.1f}-{chainage.max():.1f} m"])
+
+
+def assign_sections(cond: Conditions, chainage: np.ndarray, x: np.ndarray, y: np.ndarray,
+                    *, source: str) -> tuple[np.ndarray, Conditions]:
+    """Section row of every station, refusing stations no section covers.
+
+    For a chainage table this is :meth:`Conditions.lookup`. For section
+    polygons it is a spatial join (a station on a shared boundary goes to the
+    first polygon in file order); the table's ``from_chainage`` and
+    ``to_chainage`` are then set to the first and last station of each
+    section, for the linear water-level interpolation.
+
+    Returns
+    -------
+    idx : ndarray of int
+        Row per station.
+    cond : Conditions
+        The conditions, with chainage ranges for polygons.
+    """
+    chainage = np.asarray(chainage, float)
+    if cond.polygons is None:
+        check_conditions_cover(cond, chainage, source=source)
+        return cond.lookup(chainage), cond
+    pts = shapely.points(np.asarray(x, float), np.asarray(y, float))
+    tree = shapely.STRtree(cond.polygons)
+    st_i, poly_i = tree.query(pts, predicate="intersects")
+    big = len(cond.polygons)
+    idx = np.full(chainage.size, big, dtype=np.int64)
+    np.minimum.at(idx, st_i, poly_i)  # the first polygon in file order per station
+    idx[idx == big] = -1
+    if (idx < 0).any():
+        out = chainage[idx < 0]
+        raise ConditionsError(source, [
+            f"{out.size} station(s) lie in no section polygon (a gap), chainage "
+            f"{out.min():.1f}-{out.max():.1f} m; extend the polygons to cover the line"])
+    t = cond.table.copy()
+    k = len(t)
+    lo = np.full(k, np.nan)
+    hi = np.full(k, np.nan)
+    np.fmin.at(lo, idx, chainage)
+    np.fmax.at(hi, idx, chainage)
+    t["from_chainage"], t["to_chainage"] = lo, hi
+    empty = [str(s) for s in t["section_id"][np.isnan(lo)]]
+    if empty:
+        log.warning("conditions: no station lies in section polygon(s) %s", ", ".join(empty))
+    return idx, replace(cond, table=t)
