@@ -34,7 +34,8 @@ from .sources import (
     Conditions, DemInfo, check_conditions_cover, file_checksum, line_bounds_overlap,
     open_dem, read_centreline, read_conditions,
 )
-from .status import Stretches, classify, merge_stretches
+from .remedies import plan_options
+from .status import Stretches, classify, merge_stretches, station_extents
 
 log = logging.getLogger(__name__)
 
@@ -62,6 +63,7 @@ class Result:
     offsets: np.ndarray                # sample offsets (m, + towards the outer side)
     profiles: np.ndarray               # stations x offsets, float32, oriented outer-positive
     metadata: dict[str, Any] = field(default_factory=dict)
+    options: pd.DataFrame | None = None  # remedies per deficit stretch (remedies.py)
 
 
 # ---------------------------------------------------------------- chunks
@@ -177,9 +179,16 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     end = s.start_chainage + line.length
     stretches = merge_stretches(st.chainage, status, cols["margin"],
                                 start=s.start_chainage, end=end)
+    # remedies for every deficit stretch: raise, outer berm, combined
+    lo, hi = station_extents(st.chainage, s.start_chainage, end)
+    options = plan_options(table, _gather_conditions(cond, sec), stretches, extents=hi - lo,
+                           watch_band=s.watch_band, include_watch=s.remedy_watch,
+                           berm_above_swl=s.berm_above_swl,
+                           fill_settlement=cond.table["fill_settlement"].to_numpy(float)[sec],
+                           unit_cost=s.fill_unit_cost, approach=s.approach)
     meta = _metadata(inputs, s, dem, crs, line)
     return Result(stations=table, stretches=stretches, line=line, crs=crs,
-                  offsets=offsets, profiles=profiles, metadata=meta)
+                  offsets=offsets, profiles=profiles, metadata=meta, options=options)
 
 
 def _station_table(st: Stations, side: np.ndarray, cond: Conditions, sec: np.ndarray,

@@ -169,6 +169,8 @@ CONDITION_COLUMNS: dict[str, tuple[str, str]] = {
 }
 OPTIONAL_COLUMNS: dict[str, tuple[str, str]] = {
     "water_side": ("", "left or right (relative to the digitised direction)"),
+    "fill_settlement": ("m", "number >= 0; settlement allowance of new fill (remedies), "
+                             "default 0"),
 }
 _RULES: dict[str, tuple[float | None, float | None, bool]] = {
     # column: (min, max, min exclusive)
@@ -249,6 +251,8 @@ def validate_conditions(raw: pd.DataFrame) -> tuple[pd.DataFrame, list[str]]:
         out["water_side"] = ws
     else:
         out["water_side"] = ""
+    out["fill_settlement"] = _optional_number(raw, "fill_settlement", findings, default=0.0,
+                                              minimum=0.0)
     for i in np.flatnonzero((out["section_id"] == "").to_numpy()):
         findings.append(f"row {i + 2}, column section_id: empty")
     dup = out["section_id"][out["section_id"].duplicated() & (out["section_id"] != "")]
@@ -271,6 +275,19 @@ def validate_conditions(raw: pd.DataFrame) -> tuple[pd.DataFrame, list[str]]:
             findings.append(f"sections {a.section_id!r} and {b.section_id!r} overlap "
                             f"({lo[k]:g}-{hi[k - 1]:g} m)")
     return out, findings
+
+
+def _optional_number(raw: pd.DataFrame, col: str, findings: list[str], *, default: float,
+                     minimum: float) -> pd.Series:
+    """An optional numeric column: blank means ``default``; bad values become findings."""
+    if col not in raw.columns:
+        return pd.Series(np.full(len(raw), default))
+    text = raw[col].fillna("").str.strip()
+    vals = pd.to_numeric(text.where(text != "", str(default)), errors="coerce")
+    for i in np.flatnonzero((vals.isna() | (vals < minimum)).to_numpy()):
+        findings.append(f"row {i + 2}, column {col}: {raw[col].iloc[i]!r} must be a number "
+                        f">= {minimum:g}")
+    return vals.astype(float)
 
 
 def check_conditions_cover(cond: Conditions, chainage: np.ndarray, *, source: str) -> None:
