@@ -39,7 +39,8 @@ from .sources import (
     Conditions, DemInfo, assign_sections, file_checksum, line_bounds_overlap,
     open_dem, read_centreline, read_conditions,
 )
-from .status import Stretches, classify, merge_stretches
+from .remedies import plan_options
+from .status import Stretches, classify, merge_stretches, station_extents
 
 log = logging.getLogger(__name__)
 
@@ -71,6 +72,7 @@ class Result:
     profiles: np.ndarray               # stations x offsets, float32, oriented outer-positive
     metadata: dict[str, Any] = field(default_factory=dict)
     epochs: EpochLevels | None = None  # crest level per survey epoch (oldest first)
+    options: pd.DataFrame | None = None  # remedies per deficit stretch (remedies.py)
 
 
 # ---------------------------------------------------------------- chunks
@@ -191,6 +193,14 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     stretches = merge_stretches(st.chainage, status, cols["margin"],
                                 start=s.start_chainage, end=end,
                                 min_length=s.min_stretch_length)
+    # remedies for every deficit stretch: raise, outer berm, combined
+    lo, hi = station_extents(st.chainage, s.start_chainage, end)
+    options = plan_options(table, _gather_conditions(cond, sec, st.chainage), stretches,
+                           extents=hi - lo,
+                           watch_band=s.watch_band, include_watch=s.remedy_watch,
+                           berm_above_swl=s.berm_above_swl,
+                           fill_settlement=cond.table["fill_settlement"].to_numpy(float)[sec],
+                           unit_cost=s.fill_unit_cost, approach=s.approach)
     meta = _metadata(inputs, s, dem, crs, line)
     # every epoch read on the same stations and sections: change, rate, projected year
     levels = _epoch_levels(inputs, tasks, table, crs, cols["crest_level"], s)
@@ -200,7 +210,8 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
         table[k] = v
     meta.update(_epoch_metadata(levels, inputs))
     return Result(stations=table, stretches=stretches, line=line, crs=crs,
-                  offsets=offsets, profiles=profiles, metadata=meta, epochs=levels)
+                  offsets=offsets, profiles=profiles, metadata=meta, epochs=levels,
+                  options=options)
 
 
 def _check_epochs(inputs: RunInputs, dem: DemInfo) -> None:

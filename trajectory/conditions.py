@@ -55,6 +55,8 @@ OPTIONAL_COLUMNS: dict[str, tuple[str, str]] = {
     "upstream_share": ("-", "0 <= number <= 1; cfr_riverine: share of the 0.5 ft "
                             "upstream-end allowance at from_chainage"),
     "upstream_share_end": ("-", "0 <= number <= 1; the share at to_chainage"),
+    "fill_settlement": ("m", "0 <= number <= 10; settlement allowance of new fill for the "
+                             "reinforcement options (empty: 0)"),
 }
 _NUMERIC_RULES: dict[str, tuple[float | None, float | None, bool]] = {
     # column: (min, max, min exclusive)
@@ -73,8 +75,10 @@ _NUMERIC_RULES: dict[str, tuple[float | None, float | None, bool]] = {
     "fixed_freeboard": (0.0, 20.0, False),
     "upstream_share": (0.0, 1.0, False),
     "upstream_share_end": (0.0, 1.0, False),
+    "fill_settlement": (0.0, 10.0, False),
 }
-_DEFAULTS = {"wave_angle": 0.0, "min_freeboard": 0.0, "upstream_share": 0.0}
+_DEFAULTS = {"wave_angle": 0.0, "min_freeboard": 0.0, "upstream_share": 0.0,
+             "fill_settlement": 0.0}
 _YES = {"yes", "true", "1", "y"}
 _NO = {"no", "false", "0", "n", ""}
 _TEXT_SUFFIXES = {".csv", ".txt"}

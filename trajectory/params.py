@@ -93,6 +93,15 @@ class Settings:
                                    "more severe neighbouring stretch (never a milder one), so "
                                    "one noisy station does not split a stretch; 0 = off.",
                                    unit="m", min=0.0, max=10000.0, group="outputs")
+    # --- remedies (screening estimates of the reinforcement options)
+    remedy_watch: bool = _p(False, "Also work out remedies for 'watch' stretches (target: the "
+                            "watch band).", group="remedies")
+    berm_above_swl: float = _p(0.0, "Level of a proposed outer berm above the still water "
+                               "(design level + sea-level rise); negative = below.",
+                               unit="m", min=-10.0, max=10.0, group="remedies")
+    fill_unit_cost: float = _p(0.0, "Cost per m3 of fill (currency-neutral) for an "
+                               "order-of-magnitude cost; 0 = no cost figures.",
+                               unit="per m3", min=0.0, max=1e6, group="remedies")
     # --- execution
     chunk_size: int = _p(64, "Stations processed together in one chunk (bounds memory).",
                          unit="stations", min=1, max=100000, group="execution")

@@ -106,6 +106,26 @@ def section_profile_table(result) -> pd.DataFrame:
                          result.profiles, ch)
 
 
+def option_layer(result, *, start: float, reverse: bool) -> gpd.GeoDataFrame:
+    """The remedies, one row per stretch, basis and option, on the stretch's line."""
+    opt = result.options
+    cols = field_names("options")
+    if opt is None or opt.empty:
+        return gpd.GeoDataFrame({c: [] for c in cols}, geometry=[], crs=result.crs)
+    line, length = result.line, result.line.length
+    geoms = []
+    for a, b in zip(opt["from_chainage"], opt["to_chainage"]):
+        da, db = a - start, b - start
+        if reverse:
+            da, db = length - da, length - db
+        lo, hi = sorted((da, db))
+        geoms.append(substring(line, float(lo), float(hi)))
+    data = {c: opt[c].to_numpy() for c in cols}
+    for c in ("closes_gap", "cheapest"):
+        data[c] = data[c].astype(int)
+    return _frame(data, "options", geoms, result.crs)
+
+
 def metadata_table(result) -> pd.DataFrame:
     items = sorted(result.metadata.items())
     return pd.DataFrame({"key": [k for k, _ in items], "value": [str(v) for _, v in items]})
@@ -120,6 +140,7 @@ def write_geopackage(result, path: str | Path, *, overwrite: bool = False) -> Pa
         "cross_sections": cross_section_layer(result),
         "crest_line": crest_line_layer(result),
         "stretches": stretch_layer(result, start=start, reverse=reverse),
+        "options": option_layer(result, start=start, reverse=reverse),
         "run_metadata": metadata_table(result),
         "epochs": epoch_layer(result),
         "section_profiles": section_profile_table(result),

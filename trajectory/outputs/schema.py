@@ -148,6 +148,29 @@ SECTION_PROFILE_FIELDS: tuple[Field, ...] = (
     _f("level", "float", "m", "Ground level sampled from the DEM (NaN: nodata)"),
 )
 
+OPTION_FIELDS: tuple[Field, ...] = (
+    _f("from_chainage", "float", "m", "Start of the stretch"),
+    _f("to_chainage", "float", "m", "End of the stretch"),
+    _f("length", "float", "m", "Length of the stretch"),
+    _f("status", "str", "", "Status of the stretch (deficit, or watch on request)"),
+    _f("basis", "str", "", "worst_station: the worst station's design over the stretch; "
+       "every_station: each station's own design, summed"),
+    _f("option", "str", "", "raise | outer_berm | combined"),
+    _f("chainage", "float", "m", "Station the design is based on (worst_station basis)"),
+    _f("crest_raise", "float", "m", "Crest raise, incl. the settlement allowance of new fill"),
+    _f("berm_level", "float", "m", "Level of the outer berm (DEM datum)"),
+    _f("berm_width", "float", "m", "Width of the outer berm"),
+    _f("fill_volume", "float", "m3", "Fill volume over the stretch (screening estimate)"),
+    _f("footprint_outer", "float", "m", "Widening of the footprint on the outer side"),
+    _f("footprint_inner", "float", "m", "Widening of the footprint on the inner side"),
+    _f("gamma_b", "float", "-", "Berm influence factor EurOtop (2018) of the option"),
+    _f("closes_gap", "int", "", "1 where the option reaches the required level"),
+    _f("remaining_deficit", "float", "m", "What is still short where the option cannot close"),
+    _f("cost", "float", "cost units",
+       "fill_volume x fill_unit_cost: an order-of-magnitude estimate"),
+    _f("cheapest", "int", "", "1 for the least-fill option that closes the gap"),
+)
+
 METADATA_FIELDS: tuple[Field, ...] = (
     _f("key", "str", "", "Item of the run's metadata"),
     _f("value", "str", "", "Its value"),
@@ -159,6 +182,7 @@ LAYERS: dict[str, tuple[str | None, tuple[Field, ...]]] = {
     "cross_sections": ("LineString", CROSS_SECTION_FIELDS),
     "crest_line": ("LineString Z", CREST_LINE_FIELDS),
     "stretches": ("LineString", STRETCH_FIELDS),
+    "options": ("LineString", OPTION_FIELDS),
     "run_metadata": (None, METADATA_FIELDS),
     "epochs": ("Point", EPOCH_FIELDS),
     "section_profiles": (None, SECTION_PROFILE_FIELDS),

@@ -1,0 +1,311 @@
+"""From deficit to remedy: raise the crest, add an outer berm, or both, with fill volumes.
+
+A screening estimate for planning, not a design. For each station that falls
+short, three options bring the required crest level back to (at most) the
+crest level:
+
+raise
+    Raise the crest by the deficit plus the settlement allowance of the new
+    fill, keeping crest width, crest centre and both slopes: each slope moves
+    outward by ``n * dh``. Added cross-section area, from the trapezoid::
+
+        dA = W dh + n_out (H_out dh + dh^2 / 2) + n_in (H_in dh + dh^2 / 2)
+
+    with W the crest width and H the crest height above each toe.
+outer_berm
+    A horizontal berm of width B on the outer slope at a chosen level (default:
+    the still water, design level + sea-level rise, where the berm factor of
+    EurOtop (2018) is smallest); the slope below it keeps its gradient, moved
+    outward by B, so the added area is ``B (berm level - outer toe level)``.
+    B is the width whose berm factor gamma_b makes the required level equal
+    to the crest. gamma_b is bounded below by 0.6 (EurOtop 2018), so widths
+    beyond the one reaching that bound do nothing more: where even that berm
+    cannot close the gap the option says so and gives that berm.
+combined
+    A berm of width B and the crest raise still needed with it; B is chosen by
+    a 1-D search over widths from 0 to the largest effective one (plus the
+    berm-only width) for the least added area. With B = 0 it is the raise, at
+    the berm-only width it is the berm, so it never needs more fill than the
+    better of the two.
+
+Volumes are areas times the length each station stands for. Per stretch the
+options are given twice: designed on the worst station and applied over the
+whole stretch, and designed station by station and summed.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from .requirement import StationConditions, required_level
+
+#: option names (the public values of the `option` field)
+OPTIONS = ("raise", "outer_berm", "combined")
+#: lower bound of the berm factor (EurOtop 2018, from memory)
+GAMMA_B_MIN = 0.6
+#: widths tried by the combined option's search
+SEARCH_POINTS = 121
+
+
+@dataclass(frozen=True)
+class Geometry:
+    """Measured cross-section geometry used by the options (columnar)."""
+
+    crest_level: np.ndarray
+    crest_width: np.ndarray
+    outer_slope: np.ndarray        # n of 1:n
+    inner_slope: np.ndarray
+    outer_toe_level: np.ndarray
+    inner_toe_level: np.ndarray
+
+
+def raise_area(dh: np.ndarray, g: Geometry) -> np.ndarray:
+    """Added cross-section area (m2) of a crest raise ``dh`` keeping width and slopes."""
+    h_out = np.maximum(g.crest_level - g.outer_toe_level, 0.0)
+    h_in = np.maximum(g.crest_level - g.inner_toe_level, 0.0)
+    return (g.crest_width * dh + g.outer_slope * (h_out * dh + dh**2 / 2)
+            + g.inner_slope * (h_in * dh + dh**2 / 2))
+
+
+def berm_area(width: np.ndarray, berm_level: np.ndarray, g: Geometry) -> np.ndarray:
+    """Added area (m2) of a horizontal outer berm: width x height above the outer toe."""
+    return width * np.maximum(berm_level - g.outer_toe_level, 0.0)
+
+
+def outline(g: Geometry, i: int, *, crest_raise: float = 0.0, berm_width: float = 0.0,
+            berm_level: float = np.nan, inner_edge: float = 0.0,
+            span: tuple[float, float] | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Idealised profile (offset, level) of station ``i`` with an option applied.
+
+    Offsets are positive towards the outer side, the inner crest edge at
+    ``inner_edge``. The profile runs toe to toe (or over ``span``, extended
+    horizontally at the toe levels), so outlines of different options can be
+    compared over the same width.
+    """
+    c = float(g.crest_level[i]) + crest_raise
+    w, no, ni = float(g.crest_width[i]), float(g.outer_slope[i]), float(g.inner_slope[i])
+    to, ti = float(g.outer_toe_level[i]), float(g.inner_toe_level[i])
+    x_ie, x_oe = inner_edge, inner_edge + w
+    xs = [x_ie - ni * (c - ti), x_ie, x_oe]
+    zs = [ti, c, c]
+    if berm_width > 0 and to < berm_level < c:
+        x_b = x_oe + no * (c - berm_level)
+        xs += [x_b, x_b + berm_width, x_b + berm_width + no * (berm_level - to)]
+        zs += [berm_level, berm_level, to]
+    else:
+        xs.append(x_oe + no * (c - to))
+        zs.append(to)
+    if span is not None:
+        xs = [min(span[0], xs[0])] + xs + [max(span[1], xs[-1])]
+        zs = [ti] + zs + [to]
+    return np.asarray(xs), np.asarray(zs)
+
+
+def largest_effective_berm(cond: StationConditions, g: Geometry,
+                           berm_level: np.ndarray) -> np.ndarray:
+    """Berm width (m) at which gamma_b reaches its lower bound 0.6 (EurOtop 2018).
+
+    With rB = B / (B + Hm0 (n_below + n_above)) and gamma_b = 1 - rB (1 - rdb),
+    solving gamma_b = 0.6 gives rB = 0.4 / (1 - rdb), i.e.
+    B = rB Hm0 (n_below + n_above) / (1 - rB); rdb is taken from the factor at
+    an infinitesimal width (it does not depend on B).
+    """
+    from . import hydraulics as hy
+
+    swl = cond.water_level + cond.sea_level_rise
+    n = g.outer_slope
+    ru = hy.runup_2pct(cond.hm0, cond.tm10, 1.0 / n, gamma_f=cond.roughness,
+                       gamma_beta=hy.gamma_beta_runup(cond.wave_angle))
+    db = swl - berm_level
+    x = np.where(db > 0, 2.0 * cond.hm0, ru)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio = np.abs(db) / x
+    rdb = np.where(ratio < 1.0, 0.5 - 0.5 * np.cos(np.pi * ratio), 1.0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        r_b = np.clip((1.0 - GAMMA_B_MIN) / (1.0 - rdb), 0.0, 0.999)
+        b = r_b * cond.hm0 * 2.0 * n / (1.0 - r_b)
+    return np.where(rdb < 1.0, b, 0.0)
+
+
+def _required(cond, g, width, berm_level, approach):
+    req = required_level(cond, outer_slope=g.outer_slope, crest_level=g.crest_level,
+                         approach=approach, berm_width=width, berm_level=berm_level)
+    return req.required_level, req.gamma_b
+
+
+def _fields(obj) -> dict:
+    return {k: np.asarray(v) for k, v in obj.__dict__.items() if v is not None}
+
+
+def _repeat(obj, k: int):
+    """The same record with every station repeated ``k`` times (for a grid, flattened)."""
+    return type(obj)(**{k_: np.repeat(v, k) if v.ndim else v for k_, v in _fields(obj).items()})
+
+
+def _take(obj, idx: np.ndarray):
+    """The same record restricted to stations ``idx``."""
+    return type(obj)(**{k: v[idx] if v.ndim else v for k, v in _fields(obj).items()})
+
+
+def station_options(
+    cond: StationConditions, g: Geometry, *, target_margin: np.ndarray,
+    berm_above_swl: float = 0.0, fill_settlement: np.ndarray | float = 0.0,
+    approach: str = "design",
+) -> dict[str, dict[str, np.ndarray]]:
+    """The three options per station (columnar), each as a dict of arrays.
+
+    ``target_margin`` is the margin the option must reach (0 for a deficit).
+    Keys per option: crest_raise, berm_level, berm_width, area, footprint_outer,
+    footprint_inner, gamma_b, closes_gap, remaining (m still short).
+    """
+    n = g.crest_level.size
+    target = g.crest_level - np.broadcast_to(target_margin, (n,))
+    settle = np.broadcast_to(np.asarray(fill_settlement, float), (n,))
+    swl = cond.water_level + cond.sea_level_rise
+    lb = swl + berm_above_swl
+    zero = np.zeros(n)
+    req0, _ = _required(cond, g, zero, lb, approach)
+    short = np.maximum(req0 - target, 0.0)
+
+    # raise: the deficit plus the settlement of the new fill
+    dh = np.where(short > 0, short + settle, 0.0)
+    out = {"raise": {
+        "crest_raise": dh, "berm_level": np.full(n, np.nan), "berm_width": zero,
+        "area": raise_area(dh, g), "footprint_outer": g.outer_slope * dh,
+        "footprint_inner": g.inner_slope * dh, "gamma_b": np.ones(n),
+        "closes_gap": np.ones(n, bool), "remaining": zero}}
+
+    # outer berm: bisection on the width (required level falls as the berm widens)
+    b_max = np.nan_to_num(largest_effective_berm(cond, g, lb))
+    req_max, gb_max = _required(cond, g, b_max, lb, approach)
+    closes = (req_max <= target + 1e-9) | (short <= 0)
+    lo, hi = zero.copy(), b_max.copy()
+    for _ in range(50):
+        mid = 0.5 * (lo + hi)
+        r_mid, _ = _required(cond, g, mid, lb, approach)
+        ok = r_mid <= target
+        hi = np.where(ok, mid, hi)
+        lo = np.where(ok, lo, mid)
+    width = np.where(short <= 0, 0.0, np.where(closes, hi, b_max))
+    req_b, gb = _required(cond, g, width, lb, approach)
+    out["outer_berm"] = {
+        "crest_raise": zero, "berm_level": lb, "berm_width": width,
+        "area": berm_area(width, lb, g), "footprint_outer": width,
+        "footprint_inner": zero, "gamma_b": gb, "closes_gap": closes,
+        "remaining": np.maximum(req_b - target, 0.0)}
+
+    # combined: least area over berm widths 0..b_max and the berm-only width
+    frac = np.linspace(0.0, 1.0, SEARCH_POINTS)
+    grid = np.concatenate([frac[None, :] * b_max[:, None], width[:, None]], axis=1)
+    k_pts = grid.shape[1]
+    cond_g, g_flat = _repeat(cond, k_pts), _repeat(g, k_pts)
+    r_g, gb_g = _required(cond_g, g_flat, grid.ravel(), np.repeat(lb, k_pts), approach)
+    r_g, gb_g = r_g.reshape(grid.shape), gb_g.reshape(grid.shape)
+    g_g = Geometry(**{k_: np.asarray(v, float)[:, None] for k_, v in g.__dict__.items()})
+    need = np.maximum(r_g - target[:, None], 0.0)
+    dh_g = np.where(need > 0, need + settle[:, None], 0.0)
+    area_g = raise_area(dh_g, g_g) + berm_area(grid, lb[:, None], g_g)
+    area_g = np.where(np.isfinite(area_g), area_g, np.inf)
+    k = np.argmin(area_g, axis=1)
+    rows = np.arange(n)
+    bw_c = grid[rows, k]
+    dh_c = dh_g[rows, k]
+    out["combined"] = {
+        "crest_raise": dh_c, "berm_level": np.where(bw_c > 0, lb, np.nan),
+        "berm_width": bw_c, "area": area_g[rows, k] * np.isfinite(area_g[rows, k]),
+        "footprint_outer": bw_c + g.outer_slope * dh_c,
+        "footprint_inner": g.inner_slope * dh_c, "gamma_b": gb_g[rows, k],
+        "closes_gap": np.ones(n, bool), "remaining": zero}
+    return out
+
+
+def plan_options(
+    stations: pd.DataFrame, cond: StationConditions, stretches, *, extents: np.ndarray,
+    watch_band: float, include_watch: bool = False, berm_above_swl: float = 0.0,
+    fill_settlement: np.ndarray | float = 0.0, unit_cost: float = 0.0,
+    approach: str = "design",
+) -> pd.DataFrame:
+    """One row per stretch, basis and option: the remedies of every deficit stretch.
+
+    ``extents`` is the chainage length each station stands for (m). Deficit
+    stretches target a margin of 0; with ``include_watch`` watch stretches
+    target the watch band. ``basis`` is ``worst_station`` (the worst station's
+    design over the whole stretch) or ``every_station`` (each station's own
+    design, volumes summed, widths and raises their maxima).
+    """
+    g = Geometry(*(stations[c].to_numpy(float) for c in (
+        "crest_level", "crest_width", "outer_slope", "inner_slope",
+        "outer_toe_level", "inner_toe_level")))
+    settle = np.broadcast_to(np.asarray(fill_settlement, float), (len(stations),))
+    wanted = ("deficit", "watch") if include_watch else ("deficit",)
+    rows = []
+    margin = stations["margin"].to_numpy(float)
+    for i in np.flatnonzero(np.isin(stretches.status, wanted)):
+        idx = np.arange(stretches.first[i], stretches.last[i] + 1)
+        idx = idx[np.isfinite(margin[idx])]
+        if idx.size == 0:
+            continue
+        status = stretches.status[i]
+        tgt = 0.0 if status == "deficit" else watch_band
+        opts = station_options(_take(cond, idx), _take(g, idx),
+                               target_margin=np.full(idx.size, tgt),
+                               berm_above_swl=berm_above_swl, fill_settlement=settle[idx],
+                               approach=approach)
+        length = float(stretches.to_chainage[i] - stretches.from_chainage[i])
+        worst = int(np.argmin(margin[idx]))
+        base = {"from_chainage": float(stretches.from_chainage[i]),
+                "to_chainage": float(stretches.to_chainage[i]), "length": length,
+                "status": status, "stretch": int(i)}
+        for name in OPTIONS:
+            o = opts[name]
+            rows.append({**base, "basis": "worst_station", "option": name,
+                         "chainage": float(stations["chainage"].iloc[idx[worst]]),
+                         "crest_raise": o["crest_raise"][worst],
+                         "berm_level": o["berm_level"][worst],
+                         "berm_width": o["berm_width"][worst],
+                         "fill_volume": o["area"][worst] * length,
+                         "footprint_outer": o["footprint_outer"][worst],
+                         "footprint_inner": o["footprint_inner"][worst],
+                         "gamma_b": o["gamma_b"][worst],
+                         "closes_gap": bool(o["closes_gap"][worst]),
+                         "remaining_deficit": o["remaining"][worst]})
+            with np.errstate(all="ignore"):
+                rows.append({**base, "basis": "every_station", "option": name,
+                             "chainage": np.nan,
+                             "crest_raise": float(np.max(o["crest_raise"])),
+                             "berm_level": float(np.nanmax(o["berm_level"]))
+                             if np.isfinite(o["berm_level"]).any() else np.nan,
+                             "berm_width": float(np.max(o["berm_width"])),
+                             "fill_volume": float(np.sum(o["area"] * extents[idx])),
+                             "footprint_outer": float(np.max(o["footprint_outer"])),
+                             "footprint_inner": float(np.max(o["footprint_inner"])),
+                             "gamma_b": float(np.min(o["gamma_b"])),
+                             "closes_gap": bool(np.all(o["closes_gap"])),
+                             "remaining_deficit": float(np.max(o["remaining"]))})
+    df = pd.DataFrame(rows, columns=list(OPTION_COLUMNS))
+    if df.empty:
+        return df
+    df["cost"] = df["fill_volume"] * unit_cost if unit_cost > 0 else np.nan
+    # the cheapest option that closes the gap, per stretch and basis
+    df["cheapest"] = False
+    for _, grp in df.groupby(["stretch", "basis"], sort=False):
+        cand = grp[grp["closes_gap"]]
+        if not cand.empty:
+            df.loc[cand["fill_volume"].idxmin(), "cheapest"] = True
+    return df
+
+
+#: columns of the options table, in order (the options layer adds the geometry)
+OPTION_COLUMNS = (
+    "from_chainage", "to_chainage", "length", "status", "stretch", "basis", "option",
+    "chainage", "crest_raise", "berm_level", "berm_width", "fill_volume",
+    "footprint_outer", "footprint_inner", "gamma_b", "closes_gap", "remaining_deficit",
+    "cost", "cheapest",
+)
+
+
+__all__ = ["OPTIONS", "OPTION_COLUMNS", "Geometry", "berm_area", "largest_effective_berm",
+           "outline", "plan_options", "raise_area", "station_options"]
