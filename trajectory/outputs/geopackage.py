@@ -12,6 +12,7 @@ import shapely
 from shapely.ops import substring
 
 from ..status import station_extents
+from ..uncertainty import stretch_uncertainty
 from .atomic import atomic_path
 from .schema import LAYERS, field_names
 
@@ -71,6 +72,7 @@ def stretch_layer(result, *, start: float, reverse: bool) -> gpd.GeoDataFrame:
     data = {"from_chainage": s.from_chainage, "to_chainage": s.to_chainage,
             "length": s.length, "status": s.status, "worst_margin": s.worst_margin,
             "worst_chainage": s.worst_chainage, "stations": s.last - s.first + 1}
+    data.update(stretch_uncertainty(s, result.stations))  # uncertainty.py
     return _frame(data, "stretches", geoms, result.crs)
 
 

@@ -53,6 +53,16 @@ STATION_FIELDS: tuple[Field, ...] = (
     _f("gamma_beta", "float", "-", "Oblique-wave factor used (EurOtop 2018, overtopping)"),
     _f("flags", "str", "", "Quality flags, ';'-separated (see README)"),
     _f("water_side", "str", "", "Side of the water relative to the digitised direction"),
+    # --- uncertainty: survey accuracy carried through to the margin (uncertainty.py)
+    _f("crest_sigma", "float", "m", "Standard deviation of crest_level from the DEM's accuracy"),
+    _f("slope_sigma", "float", "n of 1:n", "Standard deviation of outer_slope (slope fit)"),
+    _f("required_sigma", "float", "m",
+       "Standard deviation of required_level from slope_sigma (freeboard's slope derivative)"),
+    _f("margin_sigma", "float", "m", "Standard deviation of margin (crest and requirement)"),
+    _f("p_short", "float", "probability", "P(margin < 0), normal model"),
+    _f("confidence", "str", "", "firm (status holds at margin +- 2 margin_sigma) | marginal"),
+    _f("sim_crest_sigma", "float", "m", "Monte Carlo std of crest_level (with --simulate)"),
+    _f("sim_margin_sigma", "float", "m", "Monte Carlo std of margin (with --simulate)"),
 )
 
 CROSS_SECTION_FIELDS: tuple[Field, ...] = (
@@ -78,6 +88,12 @@ STRETCH_FIELDS: tuple[Field, ...] = (
     _f("worst_margin", "float", "m", "Smallest margin in the stretch"),
     _f("worst_chainage", "float", "m", "Chainage of the smallest margin"),
     _f("stations", "int", "", "Number of stations in the stretch"),
+    # --- uncertainty (uncertainty.py)
+    _f("margin_sigma", "float", "m", "margin_sigma of the worst-margin station"),
+    _f("p_short", "float", "probability", "Largest p_short of the stretch's stations"),
+    _f("confidence", "str", "",
+       "firm | marginal (deficit: a firm deficit station; other: all stations firm)"),
+    _f("marginal_stations", "int", "", "Number of marginal stations in the stretch"),
 )
 
 METADATA_FIELDS: tuple[Field, ...] = (
