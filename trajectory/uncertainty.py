@@ -332,11 +332,21 @@ def simulate(ds: Any, stations: Any, side: np.ndarray, offsets: np.ndarray,
     offs = np.random.default_rng(settings.simulate_random_state).normal(
         0.0, accuracy.systematic, n_real)
     rng = np.random.default_rng([settings.simulate_random_state, chunk_key])
+    # only the cells the bilinear samples touch need noise (windows can be large)
+    touched = np.zeros(grid.shape, bool)
+    h, w = grid.shape
+    for dr in (0, 1):
+        for dc in (0, 1):
+            ii = np.clip(np.floor(rows - 0.5).astype(np.int64) + dr, 0, h - 1)
+            jj = np.clip(np.floor(cols - 0.5).astype(np.int64) + dc, 0, w - 1)
+            touched[ii[np.isfinite(rows)], jj[np.isfinite(cols)]] = True
+    n_touched = int(touched.sum())
     crest = np.empty((n_real, len(stations)))
     margin = np.empty((n_real, len(stations)))
     s = settings
     for r in range(n_real):
-        g = grid + offs[r] + rng.normal(0.0, accuracy.random, grid.shape)
+        g = grid + offs[r]
+        g[touched] += rng.normal(0.0, accuracy.random, n_touched)
         z = bilinear(g, cols, rows)
         z = np.where((side > 0)[:, None], z, z[:, ::-1])
         prof = read_profiles(z, offsets, object_width=s.object_width,
