@@ -260,3 +260,44 @@ def test_simulate_reports_empirical_sigmas(demo):
     again = run(RunInputs(str(demo["centreline"]), str(demo["dem"]), str(demo["sections"])), s)
     np.testing.assert_array_equal(again.stations["sim_margin_sigma"],
                                   res.stations["sim_margin_sigma"])
+
+
+# ------------------------------------------------------------------ report fragment
+def _small_result():
+    from types import SimpleNamespace
+
+    import pandas as pd
+
+    from trajectory.status import classify, merge_stretches
+    from trajectory.uncertainty import confidence as conf
+
+    ch = np.arange(7) * 25.0
+    margin = np.array([0.4, 0.4, -0.03, -0.02, 0.4, -0.6, 0.5])
+    sigma = np.full(7, 0.06)
+    status = classify(margin, watch_band=0.10)
+    stations = pd.DataFrame({"chainage": ch, "margin": margin, "margin_sigma": sigma,
+                             "p_short": p_short(margin, sigma), "status": status,
+                             "confidence": conf(margin, sigma, watch_band=0.10)})
+    stretches = merge_stretches(ch, status, margin, start=0.0, end=162.5)
+    return SimpleNamespace(stations=stations, stretches=stretches, metadata={})
+
+
+def test_report_marks_marginal_stretches():
+    from trajectory.outputs.report_uncertainty import (
+        MARGINAL_MEANS, margin_figure, stretch_table_html, uncertainty_sections,
+    )
+
+    res = _small_result()
+    frag = stretch_table_html(res)
+    rows = [r for r in frag.split("<tr") if "<td>" in r]
+    # stretches: ok, deficit of two stations within noise of zero (marginal), ok,
+    # a clear deficit (firm), ok
+    assert len(rows) == res.stretches.status.size == 5
+    hatched = ["repeating-linear-gradient" in r for r in rows]
+    marginal = ["<td>marginal</td>" in r for r in rows]
+    assert hatched == marginal == [False, True, False, False, False]
+    assert MARGINAL_MEANS in frag
+    fig = margin_figure(res)
+    hatches = [p for p in fig.axes[0].patches if p.get_hatch()]
+    assert len(hatches) == sum(marginal)
+    assert [t for t, _ in uncertainty_sections(res)][0] == "How sure is each verdict"
