@@ -250,7 +250,7 @@ def stretch_uncertainty(stretches: Stretches, stations: Any) -> dict[str, np.nda
     out = {"margin_sigma": np.full(n, np.nan), "p_short": np.full(n, np.nan),
            "confidence": np.full(n, None, dtype=object),
            "marginal_stations": np.zeros(n, dtype=np.int64)}
-    for i, (a, b) in enumerate(zip(stretches.first, stretches.last)):
+    for i, (a, b) in enumerate(zip(stretches.first, stretches.last, strict=True)):
         sl = slice(int(a), int(b) + 1)
         if stretches.status[i] == "no_data":
             continue
