@@ -20,6 +20,7 @@ from trajectory.requirement import StationConditions, required_level
 from trajectory.sections import bilinear
 from trajectory.uncertainty import (
     VerticalAccuracy, accuracy_from_settings, accuracy_preset, confidence, crest_sigma,
+    effective_cells,
     p_short, rate_sigma, required_slope_derivative, station_uncertainty,
 )
 
@@ -98,6 +99,34 @@ def test_crest_sigma_matches_monte_carlo_of_noisy_dems():
     assert abs(np.median(ratio) - 1.0) < 0.20, ratio
     # the systematic part does not shrink: the total is never below it
     assert (analytic >= acc.systematic).all()
+
+
+@pytest.mark.parametrize("deg", [0.0, 30.0])
+def test_effective_cells_match_exact_bilinear_weights(deg):
+    """The mean of bilinear samples is linear in the cells: its variance per unit cell
+    variance is exactly the sum of squared cell weights, found here by sampling each
+    unit-impulse grid near the run; averaged over a 4 x 4 grid of sub-cell positions."""
+    g = 24
+    th = math.radians(deg)
+    phases = (np.arange(4) + 0.5) / 4
+    for n, step, tol in ((4, CELL, 0.05), (8, CELL, 0.05), (16, CELL, 0.05),
+                         (16, CELL / 2, 0.08)):
+        exact = []
+        for fc in phases:
+            for fr in phases:
+                k = (np.arange(n) - (n - 1) / 2) * step / CELL
+                col = g / 2 + fc + k * math.cos(th)
+                row = g / 2 + fr + k * math.sin(th)
+                near = [(i, j) for i in range(int(row.min()) - 2, int(row.max()) + 3)
+                        for j in range(int(col.min()) - 2, int(col.max()) + 3)]
+                total = 0.0
+                for i, j in near:
+                    unit = np.zeros((g, g))
+                    unit[i, j] = 1.0
+                    total += bilinear(unit, col, row).mean() ** 2
+                exact.append(total)
+        model = 1.0 / effective_cells(np.array([n]), step=step, cell=CELL)[0]
+        assert model == pytest.approx(np.mean(exact), rel=tol), (n, step)
 
 
 def test_random_part_shrinks_with_the_run_length():
