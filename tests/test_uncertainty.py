@@ -19,9 +19,9 @@ from trajectory.profile import read_profiles
 from trajectory.requirement import StationConditions, required_level
 from trajectory.sections import bilinear
 from trajectory.uncertainty import (
-    VerticalAccuracy, accuracy_from_settings, accuracy_preset, confidence, crest_sigma,
-    effective_cells,
-    p_short, rate_sigma, required_slope_derivative, station_uncertainty,
+    VerticalAccuracy, accuracy_from_settings, accuracy_preset, change_sigma, confidence,
+    crest_sigma, effective_cells, p_short, rate_sigma, required_slope_derivative,
+    station_uncertainty,
 )
 
 CELL = 0.5
@@ -253,6 +253,12 @@ def test_rate_sigma_matches_weighted_polyfit_covariance():
     y = np.array([6.10, 6.07, 6.05, 6.02])
     _, cov = np.polyfit(years, y, 1, w=1 / sig, cov="unscaled")
     assert rate_sigma(years, sig) == pytest.approx(math.sqrt(cov[0, 0]), rel=1e-9)
+    # one column per station: the same, station by station
+    both = rate_sigma(years, np.stack([sig, 2 * sig], 1))
+    assert both == pytest.approx([math.sqrt(cov[0, 0]), 2 * math.sqrt(cov[0, 0])], rel=1e-9)
+    # difference of two independent surveys: variances add; a shared offset cancels
+    assert change_sigma(0.05, 0.05) == pytest.approx(0.05 * math.sqrt(2))
+    assert change_sigma(0.05, 0.05, shared_systematic=0.05) == pytest.approx(0.0)
 
 
 # ------------------------------------------------------------------ end to end
