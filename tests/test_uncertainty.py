@@ -21,7 +21,7 @@ from trajectory.sections import bilinear
 from trajectory.uncertainty import (
     VerticalAccuracy, accuracy_from_settings, accuracy_preset, change_sigma, confidence,
     crest_sigma, effective_cells, p_short, rate_sigma, required_slope_derivative,
-    station_uncertainty,
+    slope_sigma, station_uncertainty,
 )
 
 CELL = 0.5
@@ -82,12 +82,16 @@ def test_crest_sigma_matches_monte_carlo_of_noisy_dems():
     crest_rand = np.empty((n_real, s.size))
     analytic = np.empty((n_real, s.size))
     analytic_rand = np.empty((n_real, s.size))
+    slope = np.empty((n_real, s.size))
+    slope_an = np.empty((n_real, s.size))
     for r in range(n_real):
         e = rng.normal(0.0, acc.random, truth.shape)
         b = rng.normal(0.0, acc.systematic)
         m_rand = read_profiles(bilinear(truth + e, col, row), off, **KW)
         crest_rand[r] = m_rand.crest_level
         crest[r] = m_rand.crest_level + b    # the offset shifts every sample alike
+        slope[r] = m_rand.outer_slope
+        slope_an[r] = slope_sigma(m_rand.outer_slope_se, step=CELL, cell=CELL)
         tol = np.maximum(KW["crest_tolerance"], 3.0 * m_rand.noise)
         analytic[r], analytic_rand[r] = crest_sigma(m_rand.crest_cells, accuracy=acc,
                                                     step=CELL, cell=CELL, tolerance=tol)
@@ -97,6 +101,10 @@ def test_crest_sigma_matches_monte_carlo_of_noisy_dems():
     assert abs(np.median(ratio_rand) - 1.0) < 0.20, ratio_rand
     assert np.mean(np.abs(ratio_rand - 1.0) < 0.25) > 0.8, ratio_rand
     assert abs(np.median(ratio) - 1.0) < 0.20, ratio
+    # the outer slope's std from the widened fit error (truth n = 3)
+    ratio_slope = slope.std(0, ddof=1) / np.sqrt((slope_an**2).mean(0))
+    assert abs(np.median(slope.mean(0)) - 3.0) < 0.05
+    assert abs(np.median(ratio_slope) - 1.0) < 0.20, ratio_slope
     # the systematic part does not shrink: the total is never below it
     assert (analytic >= acc.systematic).all()
 
