@@ -39,8 +39,10 @@ from .sources import (
     Conditions, DemInfo, assign_sections, file_checksum, line_bounds_overlap,
     open_dem, read_centreline, read_conditions,
 )
+from . import uncertainty
 from .remedies import plan_options
 from .status import Stretches, classify, merge_stretches, station_extents
+from .uncertainty import accuracy_from_settings, simulate, simulation_summary, station_uncertainty
 
 log = logging.getLogger(__name__)
 
@@ -113,6 +115,14 @@ def _assess_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
     out = {f: getattr(prof, f) for f in prof.__dataclass_fields__}
     out.update({f: getattr(req, f) for f in req.__dataclass_fields__})
     out["margin"] = margin
+    # survey accuracy carried through to the margin; optional Monte Carlo (uncertainty.py)
+    ds, acc = _dataset(chunk.dem_path), accuracy_from_settings(s)
+    out.update(station_uncertainty(
+        prof, chunk.conditions, margin=margin, accuracy=acc, cell=abs(ds.res[0]),
+        step=float(chunk.offsets[1] - chunk.offsets[0]), crest_tolerance=s.crest_tolerance,
+        approach=s.approach, watch_band=s.watch_band).columns())
+    out.update(simulate(ds, chunk.stations, chunk.side, chunk.offsets, chunk.conditions, s,
+                        accuracy=acc, chunk_key=int(chunk.stations.along[0] * 1000)))
     out["profiles"] = z.astype(np.float32)
     return out
 
@@ -170,6 +180,7 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
         raise ParameterError(f"half_width ({s.half_width} m) must exceed crest_search "
                              f"({s.crest_search} m) so the slopes are in the section")
     offsets = section_offsets(s.half_width, step)
+    accuracy_from_settings(s)  # refuse a contradictory accuracy setting before any work
     log.info("%d stations over %.0f m, %d samples per section", len(st), line.length,
              offsets.size)
     # sample and interpret the cross-sections chunk by chunk
@@ -189,6 +200,9 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     # margin and status per station, then stretches of one status
     status = classify(cols["margin"], watch_band=s.watch_band)
     table = _station_table(st, side, cond, sec, cols, status)
+    if s.simulate:
+        log.info("Monte Carlo over %d terrain models: median ratio empirical/analytic std "
+                 "%s", s.simulate, simulation_summary(table))
     end = s.start_chainage + line.length
     stretches = merge_stretches(st.chainage, status, cols["margin"],
                                 start=s.start_chainage, end=end,
@@ -205,13 +219,26 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     # every epoch read on the same stations and sections: change, rate, projected year
     levels = _epoch_levels(inputs, tasks, table, crs, cols["crest_level"], s)
     ep = assess_epochs(levels.years, levels.crest, cols["margin"],
-                       vertical_accuracy=s.vertical_accuracy, rate_z=s.rate_z)
+                       vertical_accuracy=_survey_sigma(table, s), rate_z=s.rate_z)
     for k, v in ep.columns().items():
         table[k] = v
     meta.update(_epoch_metadata(levels, inputs))
     return Result(stations=table, stretches=stretches, line=line, crs=crs,
                   offsets=offsets, profiles=profiles, metadata=meta, epochs=levels,
                   options=options)
+
+
+def _survey_sigma(table: pd.DataFrame, s: Settings) -> np.ndarray:
+    """Each survey's crest-level error per station, from the one accuracy model.
+
+    The crest's standard deviation (systematic part plus the random part over
+    the crest's cells, uncertainty.py); where the crest was not read, the
+    accuracy class's total.
+    """
+    acc = accuracy_from_settings(s)
+    total = float(np.hypot(acc.systematic, acc.random))
+    sig = table["crest_sigma"].to_numpy(float)
+    return np.where(np.isfinite(sig) & (sig > 0), sig, total)
 
 
 def _check_epochs(inputs: RunInputs, dem: DemInfo) -> None:
@@ -301,6 +328,8 @@ def _station_table(st: Stations, side: np.ndarray, cond: Conditions, sec: np.nda
     })
     for name in STATION_COLUMNS:  # every further term of the requirement, for audit
         df[name] = cols[name]
+    for k in uncertainty.STATION_COLUMNS:  # uncertainty.py
+        df[k] = cols[k]
     return df
 
 

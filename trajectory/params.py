@@ -82,9 +82,8 @@ class Settings:
     watch_band: float = _p(0.10, "Margins from 0 up to this value are 'watch' rather than 'ok'.",
                            unit="m", min=0.0, max=5.0, group="requirement")
     # --- several surveys (epochs)
-    vertical_accuracy: float = _p(0.05, "Vertical accuracy (standard deviation) of each terrain "
-                                  "model; a lowering rate must stand out against it.",
-                                  unit="m", min=0.0, min_exclusive=True, max=2.0, group="epochs")
+    # (each survey's crest-level error for the rates comes from the accuracy model of the
+    # uncertainty block below: vertical_accuracy, sigma_systematic, sigma_random)
     rate_z: float = _p(1.645, "Standard errors a lowering rate (or a drop between surveys) must "
                        "exceed to count (one-sided; 1.645 = 95 %).",
                        unit="-", min=0.0, min_exclusive=True, max=10.0, group="epochs")
@@ -102,6 +101,24 @@ class Settings:
     fill_unit_cost: float = _p(0.0, "Cost per m3 of fill (currency-neutral) for an "
                                "order-of-magnitude cost; 0 = no cost figures.",
                                unit="per m3", min=0.0, max=1e6, group="remedies")
+    # --- uncertainty: the terrain model's vertical accuracy (trajectory.uncertainty)
+    vertical_accuracy: str = _p("asprs-10cm", "Vertical accuracy of the terrain model: an ASPRS "
+                                "(2014) vertical accuracy class (RMSEz, split half systematic) "
+                                "or 'custom' for --sigma-systematic / --sigma-random.",
+                                choices=("asprs-2.5cm", "asprs-5cm", "asprs-10cm", "asprs-15cm",
+                                         "asprs-20cm", "asprs-33.3cm", "custom"),
+                                group="uncertainty")
+    sigma_systematic: float = _p(0.0, "Systematic vertical error common to the whole survey "
+                                 "(std; with vertical_accuracy = custom).",
+                                 unit="m", min=0.0, max=5.0, group="uncertainty")
+    sigma_random: float = _p(0.0, "Random vertical error of each DEM cell (std; with "
+                             "vertical_accuracy = custom).",
+                             unit="m", min=0.0, max=5.0, group="uncertainty")
+    simulate: int = _p(0, "Monte Carlo realisations of the terrain model's error; reports "
+                       "empirical std of crest level and margin next to the analytic ones "
+                       "(0 = off).", unit="realisations", min=0, max=10000, group="uncertainty")
+    simulate_random_state: int = _p(20261, "Random state of the Monte Carlo (same value, "
+                                    "same result).", min=0, max=2**31 - 1, group="uncertainty")
     # --- execution
     chunk_size: int = _p(64, "Stations processed together in one chunk (bounds memory).",
                          unit="stations", min=1, max=100000, group="execution")

@@ -13,6 +13,7 @@ import pyogrio
 import shapely
 from shapely.ops import substring
 
+from ..uncertainty import stretch_uncertainty
 from .atomic import atomic_path, refuse_overwrite
 from .describe import write_data_columns
 from .epochs_layer import epoch_layer, epoch_stretch_columns
@@ -83,6 +84,7 @@ def _stretch_data(result) -> dict[str, np.ndarray]:
             "worst_chainage": s.worst_chainage, "stations": s.last - s.first + 1,
             "absorbed": _absorbed(result.stations["status"].to_numpy(object), s)}
     data.update(epoch_stretch_columns(result))
+    data.update(stretch_uncertainty(s, result.stations))  # uncertainty.py
     return data
 
 

@@ -72,6 +72,16 @@ STATION_FIELDS: tuple[Field, ...] = (
        "Formula validity warnings, ';'-separated (see README); result kept"),
     _f("flags", "str", "", "Quality flags, ';'-separated (see README)"),
     _f("water_side", "str", "", "Side of the water relative to the digitised direction"),
+    # --- uncertainty: survey accuracy carried through to the margin (uncertainty.py)
+    _f("crest_sigma", "float", "m", "Standard deviation of crest_level from the DEM's accuracy"),
+    _f("slope_sigma", "float", "n of 1:n", "Standard deviation of outer_slope (slope fit)"),
+    _f("required_sigma", "float", "m",
+       "Standard deviation of required_level from slope_sigma (freeboard's slope derivative)"),
+    _f("margin_sigma", "float", "m", "Standard deviation of margin (crest and requirement)"),
+    _f("p_short", "float", "probability", "P(margin < 0), normal model"),
+    _f("confidence", "str", "", "firm (status holds at margin +- 2 margin_sigma) | marginal"),
+    _f("sim_crest_sigma", "float", "m", "Monte Carlo std of crest_level (with --simulate)"),
+    _f("sim_margin_sigma", "float", "m", "Monte Carlo std of margin (with --simulate)"),
 )
 
 # --- several surveys (trajectory.epochs): stations and stretches fields, the `epochs` layer
@@ -90,7 +100,7 @@ EPOCH_STATION_FIELDS: tuple[Field, ...] = (
        "(empty: stable, rising or not significant)"),
     _f("significant_drop", "int", "",
        "1 where the crest fell since the previous survey by more than rate_z x sqrt(2) x "
-       "vertical_accuracy"),
+       "crest_sigma"),
 )
 EPOCH_STRETCH_FIELDS: tuple[Field, ...] = (
     _f("mean_lowering_rate", "float", "m/yr", "Mean lowering rate of the stretch's stations"),
@@ -133,6 +143,12 @@ STRETCH_FIELDS: tuple[Field, ...] = (
     _f("worst_margin", "float", "m", "Smallest margin in the stretch"),
     _f("worst_chainage", "float", "m", "Chainage of the smallest margin"),
     _f("stations", "int", "", "Number of stations in the stretch"),
+    # --- uncertainty (uncertainty.py)
+    _f("margin_sigma", "float", "m", "margin_sigma of the worst-margin station"),
+    _f("p_short", "float", "probability", "Largest p_short of the stretch's stations"),
+    _f("confidence", "str", "",
+       "firm | marginal (deficit: a firm deficit station; other: all stations firm)"),
+    _f("marginal_stations", "int", "", "Number of marginal stations in the stretch"),
 )
 STRETCH_FIELDS = STRETCH_FIELDS + EPOCH_STRETCH_FIELDS
 
