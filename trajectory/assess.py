@@ -8,6 +8,7 @@ operations, so memory is bounded by the chunk size, not by the line's length.
 
 from __future__ import annotations
 
+import dataclasses
 import logging
 import os
 from collections.abc import Callable, Iterator
@@ -27,7 +28,8 @@ from . import CAUTION, __version__
 from .chainage import Stations, make_stations
 from .errors import InputError, ParameterError
 from .params import Settings
-from .profile import flag_text, read_profiles
+from .profile import FLAGS, flag_text, read_profiles
+from .profile_conditions import outer_characteristic_slope
 from .requirement import StationConditions, required_level
 from .sections import sample_profiles, section_offsets
 from .sources import (
@@ -95,12 +97,18 @@ def _assess_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
     prof = read_profiles(z, chunk.offsets, object_width=s.object_width,
                          crest_search=s.crest_search, crest_tolerance=s.crest_tolerance,
                          max_nodata=s.max_nodata)
+    # the characteristic outer slope (EurOtop 2018, composite slopes) drives the freeboard
+    tan_c, extrapolated = outer_characteristic_slope(z, chunk.offsets, prof, chunk.conditions,
+                                                     object_width=s.object_width)
+    prof = dataclasses.replace(prof, flags=prof.flags | np.where(
+        extrapolated, FLAGS["slope_extrapolated"], 0))
     req = required_level(chunk.conditions, outer_slope=prof.outer_slope,
-                         crest_level=prof.crest_level, approach=s.approach)
+                         crest_level=prof.crest_level, approach=s.approach, tan_alpha=tan_c)
     margin = prof.crest_level - req.required_level
     out = {f: getattr(prof, f) for f in prof.__dataclass_fields__}
     out.update({f: getattr(req, f) for f in req.__dataclass_fields__})
     out["margin"] = margin
+    out["characteristic_slope"] = 1.0 / tan_c
     out["profiles"] = z.astype(np.float32)
     return out
 

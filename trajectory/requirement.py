@@ -52,10 +52,10 @@ class Requirement:
 
 def required_level(
     cond: StationConditions, *, outer_slope: np.ndarray, crest_level: np.ndarray,
-    approach: str = "design",
+    approach: str = "design", tan_alpha: np.ndarray | None = None,
 ) -> Requirement:
     """Required crest level per station (EurOtop 2018 overtopping inverse + allowances)."""
-    tan_a = 1.0 / outer_slope
+    tan_a = 1.0 / outer_slope if tan_alpha is None else tan_alpha
     g_beta = hy.gamma_beta_overtopping(cond.wave_angle)
     g_f = cond.roughness
     swl = cond.water_level + cond.sea_level_rise
