@@ -229,6 +229,10 @@ def _station_table(st: Stations, side: np.ndarray, cond: Conditions, sec: np.nda
         "crest_x": crest_x, "crest_y": crest_y,
         "along": st.along,
     })
+    for name in ("outer_berm_level", "outer_berm_width", "outer_berm_slope", "inner_berm_level",
+                 "inner_berm_width", "inner_berm_slope", "outer_lower_slope",
+                 "characteristic_slope"):
+        df[name] = cols[name]
     return df
 
 

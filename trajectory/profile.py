@@ -357,7 +357,9 @@ def read_profiles(
     berm_out = _berm_side(s_out, crest_level, out, step)
     berm_in = _berm_side(s_in, crest_level, inn, step)
     wet = _side(np.isnan(z).astype(float), hi, +1, k) > 0
-    water = _water_outer(_side(clean, hi, +1, k), wet, out["toe_j"], noise, step)
+    # contrast with the land side's noise (water returns lower the whole row's estimate)
+    land_noise = robust_noise(filled[:, offsets <= 0], step)
+    water = _water_outer(_side(clean, hi, +1, k), wet, out["toe_j"], land_noise, step)
 
     flags = np.zeros(n, dtype=np.int64)
     flags |= np.where(nodata_fraction > max_nodata, FLAGS["nodata"], 0)
