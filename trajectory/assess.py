@@ -25,7 +25,7 @@ from pyproj import CRS
 from shapely.geometry import LineString
 
 from . import CAUTION, __version__
-from .chainage import Stations, make_stations
+from .chainage import Stations, crossing_sections, make_stations
 from .errors import InputError, ParameterError
 from .params import Settings
 from .profile import FLAGS, flag_text, read_profiles
@@ -36,6 +36,7 @@ from .sources import (
     Conditions, DemInfo, check_conditions_cover, file_checksum, line_bounds_overlap,
     open_dem, read_centreline, read_conditions,
 )
+from .station_list import read_station_chainages
 from .status import Stretches, classify, merge_stretches
 
 log = logging.getLogger(__name__)
@@ -147,15 +148,17 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     # read the terrain model first: its CRS is the working CRS
     dem = open_dem(inputs.dem)
     # read the centreline, reprojected to the DEM's CRS, joined into one line
-    line, crs = read_centreline(inputs.centreline, layer=inputs.layer, target_crs=dem.crs)
+    line, crs = read_centreline(inputs.centreline, layer=inputs.layer, target_crs=dem.crs,
+                                gap_tolerance=s.gap_tolerance)
     if not line_bounds_overlap(line, dem, s.half_width):
         raise InputError(f"{inputs.centreline}: the centreline does not overlap the DEM "
                          f"{inputs.dem}; check that both cover the same area and CRS")
     # read and validate the section conditions
     cond = read_conditions(inputs.conditions)
     # stations at fixed chainage with smoothed normals
+    listed = read_station_chainages(s.stations_file) if s.stations_file else None
     st = make_stations(line, spacing=s.spacing, start_chainage=s.start_chainage,
-                       reverse=s.reverse, smooth_length=s.smooth_length)
+                       reverse=s.reverse, smooth_length=s.smooth_length, chainages=listed)
     check_conditions_cover(cond, st.chainage, source=inputs.conditions)
     sec = cond.lookup(st.chainage)
     side = _water_side(cond, sec, s.water_side)
@@ -179,6 +182,9 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
             progress(done, len(st))
     cols = {k: np.concatenate([p[k] for p in parts]) for k in parts[0]}
     profiles = cols.pop("profiles")
+    # sections that cross a neighbour within their half-width (needs all stations)
+    cols["flags"] = cols["flags"] | np.where(crossing_sections(st, s.half_width),
+                                             FLAGS["sections_cross"], 0)
     # margin and status per station, then stretches of one status
     status = classify(cols["margin"], watch_band=s.watch_band)
     table = _station_table(st, side, cond, sec, cols, status)
