@@ -501,7 +501,9 @@ def characteristic_slope(
     def position(level: np.ndarray) -> np.ndarray:
         """Distance from the edge (m) where the profile passes ``level``."""
         inside = np.where(level >= crest, 0.0, _length_above(s, level, stop) * step)
-        beyond = stop * step + (stop_level - level) * cot_ext
+        # below the last sample: extend from where the profile reaches that sample's level
+        beyond = (_length_above(s, stop_level, stop) * step
+                  + (stop_level - level) * cot_ext)
         return np.where(level < stop_level, beyond, inside)
 
     low = swl - 1.5 * hm0
