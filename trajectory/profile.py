@@ -40,6 +40,8 @@ TOE_LOOKAHEAD = 15.0
 BERM_MIN_DROP = 0.5
 #: part of the edge-to-toe height left out at each end of the slope fit
 FIT_TRIM = 0.10
+#: objects must rise this much (m), and four times the noise, above the ground under them
+OBJECT_MIN_HEIGHT = 0.05
 #: a berm is a flat part at least this long (m) ...
 BERM_MIN_WIDTH = 2.0
 #: ... with the gradient taken by least squares over this length (m)
@@ -138,7 +140,7 @@ def remove_objects(z: np.ndarray, step: float, *, object_width: float,
 
     A grey opening (running minimum then maximum) over ``object_width`` plus one
     cell each side (the bilinear blur) erases every peak narrower than that and
-    keeps wider shapes; cells rising clearly above the opening (by 0.25 m or four
+    keeps wider shapes; cells rising clearly above the opening (by 0.05 m or four
     times the noise) are objects and are replaced by the
     ground under them as the opening estimates it. Other cells keep their measured
     value, so noise is not biased.
@@ -147,7 +149,7 @@ def remove_objects(z: np.ndarray, step: float, *, object_width: float,
         return z
     k = int(np.ceil(object_width / step)) + 2
     opened = ndimage.grey_opening(z, size=(1, k), mode="nearest")
-    thr = np.maximum(0.25, 4.0 * np.nan_to_num(noise, nan=0.0))[:, None]
+    thr = np.maximum(OBJECT_MIN_HEIGHT, 4.0 * np.nan_to_num(noise, nan=0.0))[:, None]
     obj = (z - opened) > thr
     # widen by one cell: the flanks of an object are blurred by the sampling too
     obj = ndimage.binary_dilation(obj, structure=np.ones((1, 3), bool))
@@ -319,6 +321,27 @@ def _water_outer(raw: np.ndarray, wet: np.ndarray, toe_j: np.ndarray, noise: np.
     return (b - a >= run // 2) & (got >= 0.9 * (b - a)) & (b > a)
 
 
+def _crest_ends(offsets: np.ndarray, lo: np.ndarray, hi: np.ndarray, crest: np.ndarray,
+                out: dict[str, np.ndarray], inn: dict[str, np.ndarray], step: float
+                ) -> tuple[np.ndarray, np.ndarray]:
+    """Offsets where the fitted outer and inner slope lines reach the crest level.
+
+    Kept within the crest run (and at most one sample beyond its ends); the run's
+    ends where a side has no fitted slope.
+    """
+    span = (hi - lo) * step
+
+    def end(side: dict[str, np.ndarray]) -> np.ndarray:
+        with np.errstate(all="ignore"):
+            dist = (crest - side["a"]) / side["b"]
+        return np.where((side["b"] < 0) & np.isfinite(dist), np.clip(dist, -span, step), 0.0)
+
+    x_out = offsets[hi] + end(out)
+    x_in = offsets[lo] - end(inn)
+    swap = x_in > x_out   # a crest narrower than the fits resolve: keep the run's ends
+    return np.where(swap, offsets[hi], x_out), np.where(swap, offsets[lo], x_in)
+
+
 def read_profiles(
     z: np.ndarray, offsets: np.ndarray, *, object_width: float, crest_search: float,
     crest_tolerance: float, max_nodata: float,
@@ -354,6 +377,17 @@ def read_profiles(
     s_out, s_in = _side(d, hi, +1, k), _side(d, lo, -1, k)
     out = _slope_side(s_out, crest_level, step)
     inn = _slope_side(s_in, crest_level, step)
+    # the crest ends where the fitted slope lines meet the crest level: samples on the
+    # shoulders (within the tolerance but already on a slope) must not pull the level down
+    x_out, x_in = _crest_ends(offsets, lo, hi, crest_level, out, inn, step)
+    inner = (j >= lo[:, None]) & (j <= hi[:, None]) \
+        & (offsets[None, :] >= (x_in + 0.5 * step)[:, None]) \
+        & (offsets[None, :] <= (x_out - 0.5 * step)[:, None])
+    n_inner = inner.sum(1)
+    with np.errstate(all="ignore"):
+        refined = np.where(inner, clean, 0.0).sum(1) / n_inner
+    crest_level = np.where(n_inner >= 1, refined, crest_level)
+    cells = np.where(n_inner >= 1, n_inner, cells)
     berm_out = _berm_side(s_out, crest_level, out, step)
     berm_in = _berm_side(s_in, crest_level, inn, step)
     wet = _side(np.isnan(z).astype(float), hi, +1, k) > 0
@@ -374,8 +408,8 @@ def read_profiles(
     flags |= np.where(water, FLAGS["outer_water"], 0)
     readable = (~empty) & (nodata_fraction <= max_nodata) & ~off_centre & np.isfinite(out["cot"])
 
-    outer_edge = offsets[hi]
-    inner_edge = offsets[lo]
+    outer_edge = x_out
+    inner_edge = x_in
     nan = np.where(readable, 1.0, np.nan)  # no made-up numbers where unreadable
     return ProfileMetrics(
         crest_level=crest_level * nan,
