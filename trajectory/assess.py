@@ -100,7 +100,8 @@ def _assess_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
                          max_nodata=s.max_nodata)
     # the characteristic outer slope (EurOtop 2018, composite slopes) drives the freeboard
     tan_c, extrapolated = outer_characteristic_slope(z, chunk.offsets, prof, chunk.conditions,
-                                                     object_width=s.object_width)
+                                                     object_width=s.object_width,
+                                                     approach=s.approach)
     prof = dataclasses.replace(prof, flags=prof.flags | np.where(
         extrapolated, FLAGS["slope_extrapolated"], 0))
     req = required_level(chunk.conditions, outer_slope=prof.outer_slope,

@@ -473,6 +473,7 @@ def characteristic_slope(
     toe_is_ground: np.ndarray | None = None, lower_slope: np.ndarray | None = None,
     tm10: np.ndarray | None = None, gamma_f: np.ndarray | float = 1.0,
     gamma_beta: np.ndarray | float = 1.0, object_width: float = 1.0, iterations: int = 4,
+    approach: str = "design",
 ) -> np.ndarray:
     """Characteristic (average) outer slope tan(alpha) of a composite profile.
 
@@ -485,7 +486,8 @@ def characteristic_slope(
 
     The run-up level is unknown until the slope is: start from SWL + 1.5 Hm0 and
     repeat with Ru2% from :func:`trajectory.hydraulics.runup_2pct` (EurOtop 2018
-    Eq. 5.2) when ``tm10`` is given; without ``tm10`` the crest is the upper point.
+    Eq. 5.1/5.2 for ``approach``) when ``tm10`` is given; without ``tm10`` the
+    crest is the upper point.
 
     The horizontal position of a level is read robustly as the length of the
     profile between the crest edge and the toe lying above it (exact on a falling
@@ -559,7 +561,8 @@ def characteristic_slope(
         good = np.isfinite(tan) & (full(tm10) > 0)
         ru = np.where(good, 0.0, np.nan)
         ru[good] = runup_2pct(hm0[good], full(tm10)[good], tan[good],
-                              gamma_f=full(gamma_f)[good], gamma_beta=full(gamma_beta)[good])
+                              gamma_f=full(gamma_f)[good], gamma_beta=full(gamma_beta)[good],
+                              approach=approach)
         up = np.where(good, np.minimum(crest, swl + ru), up)
     return tan
 

@@ -15,7 +15,7 @@ from .requirement import StationConditions
 
 def outer_characteristic_slope(
     z: np.ndarray, offsets: np.ndarray, prof: ProfileMetrics, cond: StationConditions, *,
-    object_width: float = 1.0,
+    object_width: float = 1.0, approach: str = "design",
 ) -> tuple[np.ndarray, np.ndarray]:
     """tan(alpha) per station for the freeboard, and where it was extended below water.
 
@@ -35,7 +35,7 @@ def outer_characteristic_slope(
             outer_toe=prof.outer_toe, toe_is_ground=toe_is_ground,
             lower_slope=prof.outer_lower_slope, tm10=cond.tm10, gamma_f=cond.roughness,
             gamma_beta=hy.gamma_beta_runup(cond.wave_angle),
-            object_width=object_width)
+            object_width=object_width, approach=approach)
         fallback = 1.0 / prof.outer_slope
     tan = np.where(np.isfinite(tan) & (tan > 0), tan, fallback)
     extra = extrapolated_below(outer_toe_level=prof.outer_toe_level,
