@@ -95,3 +95,45 @@ def test_dry_toe_above_the_lower_point_is_the_lower_point():
     # toe (1.5 m, x = 25.5) is the lower point: (6 - 1.5) / (25.5 - 2 - 8) = 4.5 / 15.5
     tan, m = _slope(composite()[None, :], swl=2.0, hm0=1.0, toe_is_ground=np.array([True]))
     assert tan[0] == pytest.approx(4.5 / 15.5, rel=0.02)
+
+
+def _conditions(n, **kw):
+    from trajectory.requirement import StationConditions
+
+    base = dict(water_level=3.5, hm0=1.0, tm10=4.0, wave_angle=0.0, q_allow=1.0,
+                sea_level_rise=0.0, settlement=0.0, roughness=1.0, min_freeboard=0.0)
+    base.update(kw)
+    return StationConditions(**{k: np.full(n, float(v)) for k, v in base.items()})
+
+
+def test_pipeline_slope_flags_extrapolation_under_water_and_drives_the_freeboard():
+    from trajectory.profile import FLAGS
+    from trajectory.profile_conditions import outer_characteristic_slope
+    from trajectory.requirement import required_level
+
+    base = composite()
+    rows = 20
+    noise = np.random.default_rng(4).normal(0, 0.05, (2 * rows, OFF.size))
+    z = np.array([base] * (2 * rows)) + noise
+    z[rows:, (OFF > 0) & (base < 2.8)] = 2.8    # water returns at 2.8 m (lower point 2.0 m)
+    m = read_profiles(z, OFF, **KW)
+    assert not m.outer_water[:rows].any() and m.outer_water[rows:].all()
+    assert (m.flags[rows:] & FLAGS["outer_water"]).all()
+    cond = _conditions(2 * rows)
+    tan, extra = outer_characteristic_slope(z, OFF, m, cond)
+    assert not extra[:rows].any() and extra[rows:].all()
+    # same geometry under the water: the extended slope gives the dry profile's value
+    # (only 0.7 m of the lower slope shows above the water, so allow 5 %)
+    assert np.median(tan[rows:]) == pytest.approx(np.median(tan[:rows]), rel=0.05)
+    # the freeboard is EurOtop's inverse on this slope, not on the upper slope's 1/n
+    req = required_level(cond, outer_slope=m.outer_slope, crest_level=m.crest_level,
+                         tan_alpha=tan)
+    fb = hy.freeboard_for_discharge(1.0 / 1000.0, 1.0, 4.0, tan, gamma_f=1.0,
+                                    gamma_beta=hy.gamma_beta_overtopping(0.0))
+    assert req.freeboard_eurotop == pytest.approx(fb, rel=1e-9)
+    plain = required_level(cond, outer_slope=m.outer_slope, crest_level=m.crest_level)
+    assert plain.freeboard_eurotop == pytest.approx(
+        hy.freeboard_for_discharge(1.0 / 1000.0, 1.0, 4.0, 1.0 / m.outer_slope, gamma_f=1.0,
+                                   gamma_beta=hy.gamma_beta_overtopping(0.0)), rel=1e-9)
+    # a flatter average slope (berm left out, 1:4 below) lowers the freeboard
+    assert (req.freeboard_eurotop < plain.freeboard_eurotop).all()

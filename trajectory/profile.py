@@ -1,26 +1,31 @@
-"""Interpret cross-section profiles: crest, edges, toes and slopes.
+"""Interpret cross-section profiles: crest, edges, toes, slopes, berms and water.
 
 All functions work on a profile matrix ``z`` (stations x offsets) whose offsets
 are positive towards the OUTER (water) side; the caller orients it. Every
 quantity is computed for all stations at once with array operations.
 
-Definitions (documented in the README):
+Definitions (documented in the README, "How each quantity is found"):
 
-- crest top: the highest level within ``crest_search`` of the centreline after
-  a running median of width ``2 * object_width`` (removes posts, fences and
-  other objects narrower than ``object_width``);
+- crest objects: cells rising above a grey opening over ``object_width`` by more
+  than ``OBJECT_MIN_HEIGHT`` and four times the noise (posts, fences, hedges) are
+  replaced by the ground under them;
+- crest top: the highest de-spiked level within ``crest_search`` of the centreline;
 - crest: the contiguous run of samples around the top that lie within the
   crest tolerance (at least three times the profile's own noise) of the top;
-- crest level: the mean of the de-spiked levels over the crest (unbiased by
-  noise, unlike the maximum);
-- crest edges: the two ends of the crest; crest width: the distance between them;
+- crest edges: where the fitted slope lines meet the crest level (within the run);
+  crest width: their distance; crest level: the mean of the levels between the
+  edges (unbiased by noise, unlike the maximum; not lowered by shoulder samples);
 - toe: going down from a crest edge, the first point where the ground is
   flatter than 1:``TOE_COT`` and falls less than ``TOE_DROP`` over the next
   ``TOE_LOOKAHEAD`` metres (a berm, which is followed by more slope, is not a toe);
 - slope: least-squares line through the samples from the edge down to the first
   flat part (a berm or the toe), leaving out the top and bottom 10 % of that
   height; reported as n of a 1:n slope, with the fit's root-mean-square residual
-  as a quality figure.
+  as a quality figure;
+- berm: the first part of a slope much flatter than the slope above it (see
+  :func:`_berm_side`), with its level, width between the slope lines and gradient;
+- water: the outer side ends in flat, noise-free returns or nodata beyond its toe;
+- characteristic outer slope: :func:`characteristic_slope` (EurOtop 2018).
 """
 
 from __future__ import annotations
@@ -228,12 +233,12 @@ def _slope_side(s: np.ndarray, crest: np.ndarray, step: float) -> dict[str, np.n
     any_flat = (-grad < 1.0 / TOE_COT) & (s < (crest - BERM_MIN_DROP)[:, None])
     seg_end = np.where(any_flat.any(axis=1), np.argmax(any_flat, axis=1), toe)
     seg_end = np.minimum(seg_end, toe)
-    seg_level = np.take_along_axis(s, seg_end[:, None], 1)[:, 0]
-    height = crest - seg_level
-    hi = crest - FIT_TRIM * height
-    lo = seg_level + FIT_TRIM * height
     kk = np.arange(k)[None, :]
-    w = ((kk <= seg_end[:, None]) & (s <= hi[:, None]) & (s >= lo[:, None])).astype(float)
+    # trimmed by position, not by level: selecting noisy samples by their level would
+    # flatten the fitted slope (truncation on the fitted variable)
+    # (the lower end also clears the gradient window, by which the flat part is found late)
+    trim = np.rint(FIT_TRIM * seg_end).astype(int)[:, None]
+    w = ((kk >= trim) & (kk <= seg_end[:, None] - np.maximum(trim, q))).astype(float)
     w[np.isnan(s)] = 0.0
     a, b, res, se_b, cnt = masked_line_fit(dist, s, w)
     with np.errstate(all="ignore"):
@@ -279,10 +284,10 @@ def _berm_side(s: np.ndarray, crest: np.ndarray, side: dict[str, np.ndarray],
     with np.errstate(all="ignore"):
         level = (wt * np.nan_to_num(s)).sum(1) / cnt
     # the slope line below the berm: from the run's end down to the toe, trimmed
-    height = level - toe_level
-    below = ((j > hi[:, None]) & (j <= toe_j[:, None]) & np.isfinite(s)
-             & (s <= (level - FIT_TRIM * height)[:, None])
-             & (s >= (toe_level + FIT_TRIM * height)[:, None]))
+    trim = np.rint(FIT_TRIM * (toe_j - hi)).astype(int)[:, None]
+    q = max(int(round(1.0 / step)), 1)   # the toe is found this late (its gradient window)
+    below = ((j > (hi[:, None] + trim)) & (j <= (toe_j[:, None] - np.maximum(trim, q)))
+             & np.isfinite(s))
     al, bl, _, _, cnt_l = masked_line_fit(dist, s, below.astype(float))
     with np.errstate(all="ignore"):
         x1 = np.where(side["b"] < 0, (level - side["a"]) / side["b"], lo * step)
@@ -311,8 +316,7 @@ def _water_outer(raw: np.ndarray, wet: np.ndarray, toe_j: np.ndarray, noise: np.
                        mode="edge"))
     thr = np.maximum(0.003, 0.1 * np.nan_to_num(noise))[:, None]
     calm = (d2 < thr) & (np.nan_to_num(noise) > 0.01)[:, None]
-    like = (wet | calm) & np.isfinite(raw)
-    like |= wet
+    like = (calm & np.isfinite(raw)) | wet
     run = max(int(round(WATER_MIN_LENGTH / step)), 2)
     c = np.concatenate([np.zeros((n, 1)), np.cumsum(like, axis=1)], axis=1)
     a = np.clip(toe_j + 1, 0, k)
