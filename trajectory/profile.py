@@ -20,8 +20,8 @@ Definitions (documented in the README, "How each quantity is found"):
   ``TOE_LOOKAHEAD`` metres (a berm, which is followed by more slope, is not a toe);
 - slope: least-squares line through the samples from the edge down to the first
   flat part (a berm or the toe), leaving out the first and last 10 % of that
-  length (trimmed by position: trimming by level would flatten noisy fits); reported as n of a 1:n slope, with the fit's root-mean-square residual
-  as a quality figure;
+  length (by position: trimming by level would flatten noisy fits); reported as
+  n of a 1:n slope, with the fit's root-mean-square residual as a quality figure;
 - berm: the first part of a slope much flatter than the slope above it (see
   :func:`_berm_side`), with its level, width between the slope lines and gradient;
 - water: the outer side ends in flat, noise-free returns or nodata beyond its toe;
