@@ -25,12 +25,13 @@ from pyproj import CRS
 from shapely.geometry import LineString
 
 from . import CAUTION, __version__
-from .chainage import Stations, make_stations
+from .chainage import Stations, crossing_sections, make_stations
 from .epoch_sources import crest_from_result, open_earlier_dem
 from .epochs import Epoch, EpochLevels, assess_epochs, check_order
 from .errors import InputError, ParameterError
 from .params import Settings
-from .profile import flag_text, read_profiles
+from .profile import FLAGS, flag_text, read_profiles
+from .profile_conditions import outer_characteristic_slope
 from .requirement import (
     STATION_COLUMNS, StationConditions, profile_berm, required_level, station_conditions,
 )
@@ -41,6 +42,7 @@ from .sources import (
 )
 from . import uncertainty
 from .remedies import plan_options
+from .station_list import read_station_chainages
 from .status import Stretches, classify, merge_stretches, station_extents
 from .uncertainty import accuracy_from_settings, simulate, simulation_summary, station_uncertainty
 
@@ -108,19 +110,26 @@ def _assess_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
     prof = read_profiles(z, chunk.offsets, object_width=s.object_width,
                          crest_search=s.crest_search, crest_tolerance=s.crest_tolerance,
                          max_nodata=s.max_nodata)
+    # the characteristic outer slope (EurOtop 2018, composite slopes) drives the freeboard
+    tan_c, extrapolated = outer_characteristic_slope(z, chunk.offsets, prof, chunk.conditions,
+                                                     object_width=s.object_width,
+                                                     approach=s.approach)
+    prof = dataclasses.replace(prof, flags=prof.flags | np.where(
+        extrapolated, FLAGS["slope_extrapolated"], 0))
     req = required_level(chunk.conditions, outer_slope=prof.outer_slope,
-                         crest_level=prof.crest_level, approach=s.approach,
+                         crest_level=prof.crest_level, approach=s.approach, tan_alpha=tan_c,
                          **profile_berm(prof))
     margin = prof.crest_level - req.required_level
     out = {f: getattr(prof, f) for f in prof.__dataclass_fields__}
     out.update({f: getattr(req, f) for f in req.__dataclass_fields__})
     out["margin"] = margin
+    out["characteristic_slope"] = 1.0 / tan_c
     # survey accuracy carried through to the margin; optional Monte Carlo (uncertainty.py)
     ds, acc = _dataset(chunk.dem_path), accuracy_from_settings(s)
     out.update(station_uncertainty(
         prof, chunk.conditions, margin=margin, accuracy=acc, cell=abs(ds.res[0]),
         step=float(chunk.offsets[1] - chunk.offsets[0]), crest_tolerance=s.crest_tolerance,
-        approach=s.approach, watch_band=s.watch_band).columns())
+        approach=s.approach, watch_band=s.watch_band, **profile_berm(prof)).columns())
     out.update(simulate(ds, chunk.stations, chunk.side, chunk.offsets, chunk.conditions, s,
                         accuracy=acc, chunk_key=int(chunk.stations.along[0] * 1000)))
     out["profiles"] = z.astype(np.float32)
@@ -162,7 +171,8 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     # earlier surveys: dates in order, terrain models in the same CRS
     _check_epochs(inputs, dem)
     # read the centreline, reprojected to the DEM's CRS, joined into one line
-    line, crs = read_centreline(inputs.centreline, layer=inputs.layer, target_crs=dem.crs)
+    line, crs = read_centreline(inputs.centreline, layer=inputs.layer, target_crs=dem.crs,
+                                gap_tolerance=s.gap_tolerance)
     if not line_bounds_overlap(line, dem, s.half_width):
         raise InputError(f"{inputs.centreline}: the centreline does not overlap the DEM "
                          f"{inputs.dem}; check that both cover the same area and CRS")
@@ -170,8 +180,9 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     cond = read_conditions(inputs.conditions, layer=inputs.conditions_layer,
                            target_crs=dem.crs)
     # stations at fixed chainage with smoothed normals
+    listed = read_station_chainages(s.stations_file) if s.stations_file else None
     st = make_stations(line, spacing=s.spacing, start_chainage=s.start_chainage,
-                       reverse=s.reverse, smooth_length=s.smooth_length)
+                       reverse=s.reverse, smooth_length=s.smooth_length, chainages=listed)
     # the section of each station: by chainage range, or by polygon (spatial join)
     sec, cond = assign_sections(cond, st.chainage, st.x, st.y, source=inputs.conditions)
     side = _water_side(cond, sec, s.water_side)
@@ -197,6 +208,9 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
             progress(done, len(st))
     cols = {k: np.concatenate([p[k] for p in parts]) for k in parts[0]}
     profiles = cols.pop("profiles")
+    # sections that cross a neighbour within their half-width (needs all stations)
+    cols["flags"] = cols["flags"] | np.where(crossing_sections(st, s.half_width),
+                                             FLAGS["sections_cross"], 0)
     # margin and status per station, then stretches of one status
     status = classify(cols["margin"], watch_band=s.watch_band)
     table = _station_table(st, side, cond, sec, cols, status)
@@ -330,6 +344,10 @@ def _station_table(st: Stations, side: np.ndarray, cond: Conditions, sec: np.nda
         df[name] = cols[name]
     for k in uncertainty.STATION_COLUMNS:  # uncertainty.py
         df[k] = cols[k]
+    for name in ("outer_berm_level", "outer_berm_width", "outer_berm_slope", "inner_berm_level",
+                 "inner_berm_width", "inner_berm_slope", "outer_lower_slope",
+                 "characteristic_slope"):
+        df[name] = cols[name]
     return df
 
 

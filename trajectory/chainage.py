@@ -8,6 +8,8 @@ import numpy as np
 import shapely
 from shapely.geometry import LineString
 
+from .errors import InputError
+
 
 @dataclass(frozen=True)
 class Stations:
@@ -43,18 +45,41 @@ def station_distances(length: float, spacing: float, *, reverse: bool = False) -
     return length - d if reverse else d
 
 
+def distances_for_chainages(chainage: np.ndarray, length: float, *, start_chainage: float = 0.0,
+                            reverse: bool = False) -> np.ndarray:
+    """Distances from the first vertex of stations at the given chainages.
+
+    Raises :class:`~trajectory.errors.InputError` listing the chainages that fall
+    off the line (beyond ``start_chainage`` .. ``start_chainage + length``).
+    """
+    c = np.unique(np.asarray(chainage, dtype=float))
+    rel = c - start_chainage
+    off = c[(rel < -1e-6) | (rel > length + 1e-6)]
+    if off.size:
+        shown = ", ".join(f"{v:g}" for v in off[:10]) + (" ..." if off.size > 10 else "")
+        raise InputError(f"{off.size} listed station chainage(s) lie off the line, which runs "
+                         f"from {start_chainage:g} to {start_chainage + length:g} m: {shown}")
+    rel = np.clip(rel, 0.0, length)
+    return length - rel if reverse else rel
+
+
 def make_stations(
     line: LineString, *, spacing: float, start_chainage: float = 0.0,
-    reverse: bool = False, smooth_length: float = 10.0,
+    reverse: bool = False, smooth_length: float = 10.0, chainages: np.ndarray | None = None,
 ) -> Stations:
     """Place stations along ``line`` and compute smoothed section normals.
 
-    The tangent at a station is the chord between the points ``smooth_length/2``
-    before and after it (clipped at the line's ends), so sections at a vertex are
-    not skewed by the vertex's kink.
+    Stations are every ``spacing`` m, or at the listed ``chainages`` when given
+    (existing survey stations). The tangent at a station is the chord between the
+    points ``smooth_length/2`` before and after it (clipped at the line's ends), so
+    sections at a vertex are not skewed by the vertex's kink.
     """
     length = line.length
-    along = station_distances(length, spacing, reverse=reverse)
+    if chainages is None:
+        along = station_distances(length, spacing, reverse=reverse)
+    else:
+        along = distances_for_chainages(chainages, length, start_chainage=start_chainage,
+                                        reverse=reverse)
     chain = start_chainage + (length - along if reverse else along)
     pts = shapely.get_coordinates(shapely.line_interpolate_point(line, along))
     h = max(smooth_length / 2.0, 1e-3 * spacing, 1e-6)
@@ -64,3 +89,28 @@ def make_stations(
     t /= np.hypot(t[:, 0], t[:, 1])[:, None]
     return Stations(chainage=chain, along=along, x=pts[:, 0], y=pts[:, 1],
                     nx=-t[:, 1], ny=t[:, 0])
+
+
+def crossing_sections(stations: Stations, half_width: float) -> np.ndarray:
+    """True for each station whose section crosses a neighbour's within the half-width.
+
+    Sections are the segments ``half_width`` m either side of the station along its
+    normal; neighbours are the stations before and after in chainage order. On a
+    circular bend of radius R all normals meet at the centre, so neighbours cross
+    exactly where ``half_width`` reaches R (the test's analytic check).
+    """
+    n = len(stations)
+    out = np.zeros(n, dtype=bool)
+    if n < 2:
+        return out
+    order = np.argsort(stations.chainage, kind="stable")
+    x, y = stations.x[order], stations.y[order]
+    nx, ny = stations.nx[order], stations.ny[order]
+    seg = shapely.linestrings(np.stack([np.c_[x - half_width * nx, y - half_width * ny],
+                                        np.c_[x + half_width * nx, y + half_width * ny]], 1))
+    hit = shapely.intersects(seg[:-1], seg[1:])
+    flag = np.zeros(n, dtype=bool)
+    flag[:-1] |= hit
+    flag[1:] |= hit
+    out[order] = flag
+    return out

@@ -73,6 +73,12 @@ class Settings:
                                 unit="m", min=0.0, min_exclusive=True, max=2.0, group="profile")
     max_nodata: float = _p(0.5, "Profiles with a larger fraction of nodata samples are no_data.",
                            unit="fraction", min=0.0, max=1.0, group="profile")
+    # --- stations from a list, joining centreline parts
+    stations_file: str = _p("", "File of chainages to place stations at (CSV with a `chainage` "
+                            "column, or one number a line) instead of every --spacing m.")
+    gap_tolerance: float = _p(1.0, "Gaps between centreline parts up to this are closed; "
+                              "larger gaps are refused and listed.",
+                              unit="m", min=0.0, max=1000.0)
     # --- required level
     approach: str = _p("design", "EurOtop (2018) approach: 'design' (design or assessment, "
                        "default) or 'mean' (mean value); 'taw2002_design' or 'taw2002_mean' "

@@ -1,26 +1,31 @@
-"""Interpret cross-section profiles: crest, edges, toes and slopes.
+"""Interpret cross-section profiles: crest, edges, toes, slopes, berms and water.
 
 All functions work on a profile matrix ``z`` (stations x offsets) whose offsets
 are positive towards the OUTER (water) side; the caller orients it. Every
 quantity is computed for all stations at once with array operations.
 
-Definitions (documented in the README):
+Definitions (documented in the README, "How each quantity is found"):
 
-- crest top: the highest level within ``crest_search`` of the centreline after
-  a running median of width ``2 * object_width`` (removes posts, fences and
-  other objects narrower than ``object_width``);
+- crest objects: cells rising above a grey opening over ``object_width`` by more
+  than ``OBJECT_MIN_HEIGHT`` and four times the noise (posts, fences, hedges) are
+  replaced by the ground under them;
+- crest top: the highest de-spiked level within ``crest_search`` of the centreline;
 - crest: the contiguous run of samples around the top that lie within the
   crest tolerance (at least three times the profile's own noise) of the top;
-- crest level: the mean of the de-spiked levels over the crest (unbiased by
-  noise, unlike the maximum);
-- crest edges: the two ends of the crest; crest width: the distance between them;
+- crest edges: where the fitted slope lines meet the crest level (within the run);
+  crest width: their distance; crest level: the mean of the levels between the
+  edges (unbiased by noise, unlike the maximum; not lowered by shoulder samples);
 - toe: going down from a crest edge, the first point where the ground is
   flatter than 1:``TOE_COT`` and falls less than ``TOE_DROP`` over the next
   ``TOE_LOOKAHEAD`` metres (a berm, which is followed by more slope, is not a toe);
 - slope: least-squares line through the samples from the edge down to the first
-  flat part (a berm or the toe), leaving out the top and bottom 10 % of that
-  height; reported as n of a 1:n slope, with the fit's root-mean-square residual
-  as a quality figure.
+  flat part (a berm or the toe), leaving out the first and last 10 % of that
+  length (by position: trimming by level would flatten noisy fits); reported as
+  n of a 1:n slope, with the fit's root-mean-square residual as a quality figure;
+- berm: the first part of a slope much flatter than the slope above it (see
+  :func:`_berm_side`), with its level, width between the slope lines and gradient;
+- water: the outer side ends in flat, noise-free returns or nodata beyond its toe;
+- characteristic outer slope: :func:`characteristic_slope` (EurOtop 2018).
 """
 
 from __future__ import annotations
@@ -28,7 +33,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import ndimage
+from scipy import ndimage, signal
 
 #: a slope flatter than 1:TOE_COT counts as flat ground
 TOE_COT = 12.0
@@ -40,6 +45,14 @@ TOE_LOOKAHEAD = 15.0
 BERM_MIN_DROP = 0.5
 #: part of the edge-to-toe height left out at each end of the slope fit
 FIT_TRIM = 0.10
+#: objects must rise this much (m), and four times the noise, above the ground under them
+OBJECT_MIN_HEIGHT = 0.05
+#: a berm is a flat part at least this long (m) ...
+BERM_MIN_WIDTH = 2.0
+#: ... with the gradient taken by least squares over this length (m)
+BERM_WINDOW = 4.0
+#: flat, noise-free returns (or nodata) this long (m) beyond the outer toe are water
+WATER_MIN_LENGTH = 3.0
 
 # quality flags (bit values); names are the public text in the `flags` field
 FLAGS = {
@@ -51,6 +64,9 @@ FLAGS = {
     "poor_outer_fit": 32,   # outer slope fit residual large
     "poor_inner_fit": 64,
     "no_outer_slope": 128,  # too few samples on the outer slope
+    "outer_water": 256,     # outer side ends in water (flat returns or nodata) above its toe
+    "slope_extrapolated": 512,  # characteristic slope extended below the lowest dry point
+    "sections_cross": 1024,  # the section crosses a neighbour within its half-width
 }
 #: residual (m) above which a slope fit is flagged as poor
 POOR_FIT_RMSE = 0.15
@@ -80,6 +96,14 @@ class ProfileMetrics:
     nodata_fraction: np.ndarray
     flags: np.ndarray            # bitmask of FLAGS
     readable: np.ndarray         # bool: crest and outer slope could be read
+    outer_berm_level: np.ndarray  # level of the first berm below each crest edge (NaN: none)
+    outer_berm_width: np.ndarray
+    inner_berm_level: np.ndarray
+    inner_berm_width: np.ndarray
+    outer_berm_slope: np.ndarray  # berm gradient (m/m, + falling away from the crest)
+    inner_berm_slope: np.ndarray
+    outer_lower_slope: np.ndarray  # n of 1:n below the outer berm (= outer_slope if none)
+    outer_water: np.ndarray       # bool: the outer side ends in water above its toe
 
 
 def fill_gaps(z: np.ndarray) -> np.ndarray:
@@ -121,7 +145,7 @@ def remove_objects(z: np.ndarray, step: float, *, object_width: float,
 
     A grey opening (running minimum then maximum) over ``object_width`` plus one
     cell each side (the bilinear blur) erases every peak narrower than that and
-    keeps wider shapes; cells rising clearly above the opening (by 0.25 m or four
+    keeps wider shapes; cells rising clearly above the opening (by 0.05 m or four
     times the noise) are objects and are replaced by the
     ground under them as the opening estimates it. Other cells keep their measured
     value, so noise is not biased.
@@ -130,7 +154,7 @@ def remove_objects(z: np.ndarray, step: float, *, object_width: float,
         return z
     k = int(np.ceil(object_width / step)) + 2
     opened = ndimage.grey_opening(z, size=(1, k), mode="nearest")
-    thr = np.maximum(0.25, 4.0 * np.nan_to_num(noise, nan=0.0))[:, None]
+    thr = np.maximum(OBJECT_MIN_HEIGHT, 4.0 * np.nan_to_num(noise, nan=0.0))[:, None]
     obj = (z - opened) > thr
     # widen by one cell: the flanks of an object are blurred by the sampling too
     obj = ndimage.binary_dilation(obj, structure=np.ones((1, 3), bool))
@@ -209,12 +233,12 @@ def _slope_side(s: np.ndarray, crest: np.ndarray, step: float) -> dict[str, np.n
     any_flat = (-grad < 1.0 / TOE_COT) & (s < (crest - BERM_MIN_DROP)[:, None])
     seg_end = np.where(any_flat.any(axis=1), np.argmax(any_flat, axis=1), toe)
     seg_end = np.minimum(seg_end, toe)
-    seg_level = np.take_along_axis(s, seg_end[:, None], 1)[:, 0]
-    height = crest - seg_level
-    hi = crest - FIT_TRIM * height
-    lo = seg_level + FIT_TRIM * height
     kk = np.arange(k)[None, :]
-    w = ((kk <= seg_end[:, None]) & (s <= hi[:, None]) & (s >= lo[:, None])).astype(float)
+    # trimmed by position, not by level: selecting noisy samples by their level would
+    # flatten the fitted slope (truncation on the fitted variable)
+    # (the lower end also clears the gradient window, by which the flat part is found late)
+    trim = np.rint(FIT_TRIM * seg_end).astype(int)[:, None]
+    w = ((kk >= trim) & (kk <= seg_end[:, None] - np.maximum(trim, q))).astype(float)
     w[np.isnan(s)] = 0.0
     a, b, res, se_b, cnt = masked_line_fit(dist, s, w)
     with np.errstate(all="ignore"):
@@ -222,7 +246,104 @@ def _slope_side(s: np.ndarray, crest: np.ndarray, step: float) -> dict[str, np.n
         se_cot = np.where(np.isfinite(cot), se_b / b**2, np.nan)
     return {"toe": toe * step, "toe_level": toe_level, "cot": cot,
             "rmse": np.where(cnt >= 3, res, np.nan), "truncated": ~has_toe,
-            "fit_count": cnt, "cot_se": se_cot}
+            "fit_count": cnt, "cot_se": se_cot, "toe_j": toe, "a": a, "b": b}
+
+
+def _berm_side(s: np.ndarray, crest: np.ndarray, side: dict[str, np.ndarray],
+               step: float) -> dict[str, np.ndarray]:
+    """First berm between a crest edge and its toe; ``s`` runs from the edge outward.
+
+    A berm is a run at least ``BERM_MIN_WIDTH`` long whose gradient (least squares
+    over ``BERM_WINDOW``) is flatter than 1:``TOE_COT`` and than 40 % of the upper
+    slope, lying at least ``BERM_MIN_DROP`` below the crest and above the toe. Its
+    level is the mean over the run; its ends are where the fitted slope lines above
+    and below meet that level, so the blur of the gradient window does not shorten it.
+    """
+    n, k = s.shape
+    dist = np.arange(k) * step
+    win = max(int(round(BERM_WINDOW / step)) | 1, 5)
+    sf = fill_gaps(s)
+    sf = np.where(np.isnan(sf), 0.0, sf)
+    if k < win:
+        nan = np.full(n, np.nan)
+        return {"level": nan, "width": nan, "slope": nan, "lower_cot": nan.copy()}
+    grad = signal.savgol_filter(sf, win, 1, deriv=1, delta=step, axis=1, mode="interp")
+    tan_up = np.where(side["b"] < 0, -side["b"], np.nan)
+    limit = np.minimum(1.0 / TOE_COT, 0.4 * tan_up)
+    toe_j, toe_level = side["toe_j"], side["toe_level"]
+    j = np.arange(k)[None, :]
+    cand = ((-grad < limit[:, None]) & np.isfinite(s) & (j >= 1) & (j < toe_j[:, None])
+            & (s < (crest - BERM_MIN_DROP)[:, None])
+            & (s > (toe_level + BERM_MIN_DROP)[:, None]))
+    has = cand.any(axis=1)
+    lo, hi = _run_around(cand, np.argmax(cand, axis=1))
+    has &= (hi - lo + 1) * step >= BERM_MIN_WIDTH
+    on = (j >= lo[:, None]) & (j <= hi[:, None]) & has[:, None]
+    wt = on.astype(float)
+    _, gb, _, _, cnt = masked_line_fit(dist, s, wt)
+    with np.errstate(all="ignore"):
+        level = (wt * np.nan_to_num(s)).sum(1) / cnt
+    # the slope line below the berm: from the run's end down to the toe, trimmed
+    trim = np.rint(FIT_TRIM * (toe_j - hi)).astype(int)[:, None]
+    q = max(int(round(1.0 / step)), 1)   # the toe is found this late (its gradient window)
+    below = ((j > (hi[:, None] + trim)) & (j <= (toe_j[:, None] - np.maximum(trim, q)))
+             & np.isfinite(s))
+    al, bl, _, _, cnt_l = masked_line_fit(dist, s, below.astype(float))
+    with np.errstate(all="ignore"):
+        x1 = np.where(side["b"] < 0, (level - side["a"]) / side["b"], lo * step)
+        x1 = np.clip(x1, 0.0, lo * step + 0.5 * BERM_WINDOW)
+        ok_l = (cnt_l >= 3) & (bl < 0)
+        x2 = np.where(ok_l, (level - al) / bl, hi * step + 0.5 * BERM_WINDOW)
+        x2 = np.clip(x2, hi * step, toe_j * step)
+        lower_cot = np.where(ok_l, -1.0 / bl, np.nan)
+    nan = np.where(has, 1.0, np.nan)
+    return {"level": level * nan, "width": (x2 - x1) * nan, "slope": -gb * nan,
+            "lower_cot": np.where(has, lower_cot, side["cot"]), "start": x1 * nan}
+
+
+def _water_outer(raw: np.ndarray, wet: np.ndarray, toe_j: np.ndarray, noise: np.ndarray,
+                 step: float) -> np.ndarray:
+    """True where the outer side ends in water at its toe.
+
+    ``raw`` runs from the outer crest edge outward (gaps filled, not smoothed) and
+    ``wet`` marks nodata there. Water returns are flat and free of the ground's
+    noise: over ``WATER_MIN_LENGTH`` beyond the toe, 90 % of the samples are nodata
+    or have a second difference below a tenth of the profile's noise (profiles with
+    less than 1 cm of noise carry no such contrast; only nodata counts there).
+    """
+    n, k = raw.shape
+    d2 = np.abs(np.pad(raw[:, 2:] - 2 * raw[:, 1:-1] + raw[:, :-2], ((0, 0), (1, 1)),
+                       mode="edge"))
+    thr = np.maximum(0.003, 0.1 * np.nan_to_num(noise))[:, None]
+    calm = (d2 < thr) & (np.nan_to_num(noise) > 0.01)[:, None]
+    like = (calm & np.isfinite(raw)) | wet
+    run = max(int(round(WATER_MIN_LENGTH / step)), 2)
+    c = np.concatenate([np.zeros((n, 1)), np.cumsum(like, axis=1)], axis=1)
+    a = np.clip(toe_j + 1, 0, k)
+    b = np.clip(toe_j + 1 + run, 0, k)
+    got = np.take_along_axis(c, b[:, None], 1)[:, 0] - np.take_along_axis(c, a[:, None], 1)[:, 0]
+    return (b - a >= run // 2) & (got >= 0.9 * (b - a)) & (b > a)
+
+
+def _crest_ends(offsets: np.ndarray, lo: np.ndarray, hi: np.ndarray, crest: np.ndarray,
+                out: dict[str, np.ndarray], inn: dict[str, np.ndarray], step: float
+                ) -> tuple[np.ndarray, np.ndarray]:
+    """Offsets where the fitted outer and inner slope lines reach the crest level.
+
+    Kept within the crest run (and at most one sample beyond its ends); the run's
+    ends where a side has no fitted slope.
+    """
+    span = (hi - lo) * step
+
+    def end(side: dict[str, np.ndarray]) -> np.ndarray:
+        with np.errstate(all="ignore"):
+            dist = (crest - side["a"]) / side["b"]
+        return np.where((side["b"] < 0) & np.isfinite(dist), np.clip(dist, -span, step), 0.0)
+
+    x_out = offsets[hi] + end(out)
+    x_in = offsets[lo] - end(inn)
+    swap = x_in > x_out   # a crest narrower than the fits resolve: keep the run's ends
+    return np.where(swap, offsets[hi], x_out), np.where(swap, offsets[lo], x_in)
 
 
 def read_profiles(
@@ -257,8 +378,26 @@ def read_profiles(
 
     k = m  # long enough to reach the section's end from any edge
     # slopes are read on the de-spiked levels, so posts on a slope do not bend the fit
-    out = _slope_side(_side(d, hi, +1, k), crest_level, step)
-    inn = _slope_side(_side(d, lo, -1, k), crest_level, step)
+    s_out, s_in = _side(d, hi, +1, k), _side(d, lo, -1, k)
+    out = _slope_side(s_out, crest_level, step)
+    inn = _slope_side(s_in, crest_level, step)
+    # the crest ends where the fitted slope lines meet the crest level: samples on the
+    # shoulders (within the tolerance but already on a slope) must not pull the level down
+    x_out, x_in = _crest_ends(offsets, lo, hi, crest_level, out, inn, step)
+    inner = (j >= lo[:, None]) & (j <= hi[:, None]) \
+        & (offsets[None, :] >= (x_in + 0.5 * step)[:, None]) \
+        & (offsets[None, :] <= (x_out - 0.5 * step)[:, None])
+    n_inner = inner.sum(1)
+    with np.errstate(all="ignore"):
+        refined = np.where(inner, clean, 0.0).sum(1) / n_inner
+    crest_level = np.where(n_inner >= 1, refined, crest_level)
+    cells = np.where(n_inner >= 1, n_inner, cells)
+    berm_out = _berm_side(s_out, crest_level, out, step)
+    berm_in = _berm_side(s_in, crest_level, inn, step)
+    wet = _side(np.isnan(z).astype(float), hi, +1, k) > 0
+    # contrast with the land side's noise (water returns lower the whole row's estimate)
+    land_noise = robust_noise(filled[:, offsets <= 0], step)
+    water = _water_outer(_side(clean, hi, +1, k), wet, out["toe_j"], land_noise, step)
 
     flags = np.zeros(n, dtype=np.int64)
     flags |= np.where(nodata_fraction > max_nodata, FLAGS["nodata"], 0)
@@ -270,10 +409,11 @@ def read_profiles(
     flags |= np.where(out["rmse"] > POOR_FIT_RMSE, FLAGS["poor_outer_fit"], 0)
     flags |= np.where(inn["rmse"] > POOR_FIT_RMSE, FLAGS["poor_inner_fit"], 0)
     flags |= np.where(np.isnan(out["cot"]), FLAGS["no_outer_slope"], 0)
+    flags |= np.where(water, FLAGS["outer_water"], 0)
     readable = (~empty) & (nodata_fraction <= max_nodata) & ~off_centre & np.isfinite(out["cot"])
 
-    outer_edge = offsets[hi]
-    inner_edge = offsets[lo]
+    outer_edge = x_out
+    inner_edge = x_in
     nan = np.where(readable, 1.0, np.nan)  # no made-up numbers where unreadable
     return ProfileMetrics(
         crest_level=crest_level * nan,
@@ -296,6 +436,14 @@ def read_profiles(
         nodata_fraction=nodata_fraction,
         flags=flags,
         readable=readable,
+        outer_berm_level=berm_out["level"] * nan,
+        outer_berm_width=berm_out["width"] * nan,
+        inner_berm_level=berm_in["level"] * nan,
+        inner_berm_width=berm_in["width"] * nan,
+        outer_berm_slope=berm_out["slope"] * nan,
+        inner_berm_slope=berm_in["slope"] * nan,
+        outer_lower_slope=berm_out["lower_cot"] * nan,
+        outer_water=water & readable,
     )
 
 
@@ -305,3 +453,129 @@ def flag_text(flags: np.ndarray) -> np.ndarray:
     bits = np.array(list(FLAGS.values()))
     has = (flags[:, None] & bits[None, :]) > 0
     return np.array([";".join(names[row]) for row in has], dtype=object)
+
+
+def _length_above(s: np.ndarray, level: np.ndarray, stop: np.ndarray) -> np.ndarray:
+    """Length (in samples) of the polyline ``s[0..stop]`` per row lying above ``level``.
+
+    Exact for a falling piecewise-linear profile (it is then the distance to the
+    point where the profile passes ``level``) and unbiased by noise.
+    """
+    a, b = s[:, :-1], s[:, 1:]
+    lv = level[:, None]
+    with np.errstate(all="ignore"):
+        frac = np.where(a == b, (a > lv).astype(float),
+                        np.clip((np.maximum(a, b) - lv) / np.abs(a - b), 0.0, 1.0))
+    j = np.arange(a.shape[1])[None, :]
+    return np.where((j < stop[:, None]) & np.isfinite(frac), frac, 0.0).sum(axis=1)
+
+
+def characteristic_slope(
+    z: np.ndarray, offsets: np.ndarray, *, crest_level: np.ndarray, outer_edge: np.ndarray,
+    swl: np.ndarray, hm0: np.ndarray, berm_width: np.ndarray,
+    berm_level: np.ndarray | None = None, outer_toe: np.ndarray | None = None,
+    toe_is_ground: np.ndarray | None = None, lower_slope: np.ndarray | None = None,
+    tm10: np.ndarray | None = None, gamma_f: np.ndarray | float = 1.0,
+    gamma_beta: np.ndarray | float = 1.0, object_width: float = 1.0, iterations: int = 4,
+    approach: str = "design",
+) -> np.ndarray:
+    """Characteristic (average) outer slope tan(alpha) of a composite profile.
+
+    EurOtop (2018) Section 5.3.4 (composite slopes; wording from memory): the
+    average slope between the point 1.5 Hm0 below the still water level and the
+    run-up level Ru2% above it, or the crest where that is lower, with the width B
+    of a berm between those points left out::
+
+        tan(alpha) = (z_up - z_low) / (L_slope - B)
+
+    The run-up level is unknown until the slope is: start from SWL + 1.5 Hm0 and
+    repeat with Ru2% from :func:`trajectory.hydraulics.runup_2pct` (EurOtop 2018
+    Eq. 5.1/5.2 for ``approach``) when ``tm10`` is given; without ``tm10`` the
+    crest is the upper point.
+
+    The horizontal position of a level is read robustly as the length of the
+    profile between the crest edge and the toe lying above it (exact on a falling
+    profile, unbiased by noise). Where the lower point lies below the last sample before
+    ``outer_toe`` the slope is extended with ``lower_slope`` (1:n below the berm)
+    — below water, or beyond the section's end — unless ``toe_is_ground`` says the
+    toe is dry ground, in which case the toe is the lower point.
+
+    Parameters
+    ----------
+    z, offsets : profile matrix (stations x offsets, + towards the outer side).
+    crest_level, outer_edge : from :func:`read_profiles`.
+    swl, hm0 : still water level (incl. allowances) and Hm0 per station.
+    berm_width, berm_level : the outer berm (NaN where none); without ``berm_level``
+        the berm width is left out wherever it is finite.
+
+    Returns
+    -------
+    ndarray
+        tan(alpha) per station (NaN where it cannot be formed).
+    """
+    n, m = z.shape
+    step = float(offsets[1] - offsets[0])
+    full = lambda v: np.broadcast_to(np.asarray(v, dtype=float), (n,)).astype(float)  # noqa: E731
+    crest, edge, swl, hm0 = full(crest_level), full(outer_edge), full(swl), full(hm0)
+    bw = np.nan_to_num(full(berm_width), nan=0.0)
+    bl = full(np.nan) if berm_level is None else full(berm_level)
+    filled = fill_gaps(z)
+    empty = np.isnan(filled).all(axis=1)
+    filled[empty] = 0.0
+    clean = remove_objects(filled, step, object_width=object_width,
+                           noise=robust_noise(filled, step))
+    ok = np.isfinite(crest) & np.isfinite(edge) & ~empty
+    e = np.clip(np.rint((np.nan_to_num(edge) - offsets[0]) / step).astype(int), 0, m - 1)
+    s = _side(clean, e, +1, m)
+    last = np.isfinite(s).sum(axis=1) - 1
+    if outer_toe is None:
+        stop = last
+    else:
+        toe_d = np.nan_to_num(full(outer_toe) - edge, nan=np.inf)
+        stop = np.minimum(last, np.floor(np.clip(toe_d / step, 0, m)).astype(int))
+    stop_level = np.take_along_axis(s, stop[:, None], 1)[:, 0]
+    ground = np.zeros(n, bool) if toe_is_ground is None else np.broadcast_to(
+        np.asarray(toe_is_ground, bool), (n,))
+    cot_ext = full(np.nan) if lower_slope is None else full(lower_slope)
+
+    def position(level: np.ndarray) -> np.ndarray:
+        """Distance from the edge (m) where the profile passes ``level``."""
+        inside = np.where(level >= crest, 0.0, _length_above(s, level, stop) * step)
+        # below the last sample: extend from where the profile reaches that sample's level
+        beyond = (_length_above(s, stop_level, stop) * step
+                  + (stop_level - level) * cot_ext)
+        return np.where(level < stop_level, beyond, inside)
+
+    low = swl - 1.5 * hm0
+    low = np.where(ground & (low < stop_level), stop_level, low)
+    up = crest.copy() if tm10 is None else np.minimum(crest, swl + 1.5 * hm0)
+    x_low = position(low)
+    tan = np.full(n, np.nan)
+    for it in range(max(iterations, 1)):
+        x_up = position(up)
+        b_in = np.where(np.isfinite(bl), (bl > low) & (bl < up), True)
+        run = x_low - x_up - np.where(b_in, bw, 0.0)
+        with np.errstate(all="ignore"):
+            tan = np.where(ok & (up > low) & (run > 0.1 * (x_low - x_up)),
+                           (up - low) / run, np.nan)
+        if tm10 is None or it == iterations - 1:
+            break
+        from .hydraulics import runup_2pct
+
+        good = np.isfinite(tan) & (full(tm10) > 0)
+        ru = np.where(good, 0.0, np.nan)
+        ru[good] = runup_2pct(hm0[good], full(tm10)[good], tan[good],
+                              gamma_f=full(gamma_f)[good], gamma_beta=full(gamma_beta)[good],
+                              approach=approach)
+        up = np.where(good, np.minimum(crest, swl + ru), up)
+    return tan
+
+
+def extrapolated_below(*, outer_toe_level: np.ndarray, outer_water: np.ndarray,
+                       swl: np.ndarray, hm0: np.ndarray) -> np.ndarray:
+    """True where the characteristic slope's lower point (SWL - 1.5 Hm0) lies under water.
+
+    Those stations' slope below the waterline is extended from the slope above it.
+    """
+    return np.asarray(outer_water, bool) & (np.asarray(swl) - 1.5 * np.asarray(hm0)
+                                            < np.nan_to_num(outer_toe_level, nan=np.inf))

@@ -17,9 +17,10 @@ import rasterio
 import shapely
 from pyproj import CRS, Transformer
 from shapely.geometry import LineString, MultiLineString
-from shapely.ops import linemerge, transform
+from shapely.ops import transform
 
 from .errors import InputError, InputFileError
+from .joins import join_parts
 
 log = logging.getLogger(__name__)
 
@@ -48,12 +49,13 @@ def read_centreline(
     geoms = [g for g in df.geometry if g is not None and not g.is_empty]
     if not geoms:
         raise InputError(f"{p}: layer {layer!r} holds no line geometry")
-    line = _join_lines(geoms, source=str(p), tolerance=gap_tolerance)
     crs = CRS.from_user_input(df.crs)
     if target_crs is not None and not crs.equals(target_crs):
+        # reproject the parts first, so gaps are measured in the working CRS's metres
         tr = Transformer.from_crs(crs, target_crs, always_xy=True)
-        line = transform(tr.transform, line)
+        geoms = [transform(tr.transform, g) for g in geoms]
         crs = target_crs
+    line = _join_lines(geoms, source=str(p), tolerance=gap_tolerance)
     if line.length <= 0:
         raise InputError(f"{p}: the centreline has zero length")
     return line, crs
@@ -87,25 +89,21 @@ def _join_lines(geoms: list, *, source: str, tolerance: float) -> LineString:
             parts.append(g)
         else:
             raise InputError(f"{source}: geometry of type {g.geom_type} is not a line")
-    if len(parts) == 1:
-        return LineString(np.asarray(parts[0].coords)[:, :2])
-    merged = linemerge(MultiLineString([LineString(np.asarray(q.coords)[:, :2]) for q in parts]))
-    if isinstance(merged, LineString):
-        return merged
-    # close small gaps between consecutive parts in file order
-    coords = [np.asarray(parts[0].coords)[:, :2]]
-    for q in parts[1:]:
-        c = np.asarray(q.coords)[:, :2]
-        end = coords[-1][-1]
-        d_start, d_end = np.hypot(*(c[0] - end)), np.hypot(*(c[-1] - end))
-        if d_end < d_start:
-            c, d_start = c[::-1], d_end
-        if d_start > tolerance:
-            raise InputError(f"{source}: the centreline parts leave a gap of {d_start:.1f} m "
-                             f"near ({end[0]:.1f}, {end[1]:.1f}); join them or raise the gap "
-                             f"tolerance ({tolerance} m)")
-        coords.append(c[1:] if d_start == 0 else c)
-    return LineString(np.vstack(coords))
+    try:
+        line, gaps = join_parts(parts, tolerance=tolerance)
+    except InputError as exc:
+        raise InputError(f"{source}: {exc}") from exc
+    big = [g for g in gaps if g.distance > tolerance]
+    if big:
+        listed = "\n  - ".join(f"{g.distance:.1f} m between parts {g.parts[0] + 1} and "
+                               f"{g.parts[1] + 1} near ({g.x:.1f}, {g.y:.1f})" for g in big)
+        raise InputError(f"{source}: the centreline parts leave {len(big)} gap(s) larger than "
+                         f"the gap tolerance ({tolerance} m):\n  - {listed}\njoin them or "
+                         "raise --gap-tolerance")
+    if gaps:
+        log.info("%s: closed %d gap(s) between centreline parts, the largest %.2f m", source,
+                 len(gaps), max(g.distance for g in gaps))
+    return line
 
 
 # ----------------------------------------------------------------------- DEM

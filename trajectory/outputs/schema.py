@@ -82,6 +82,17 @@ STATION_FIELDS: tuple[Field, ...] = (
     _f("confidence", "str", "", "firm (status holds at margin +- 2 margin_sigma) | marginal"),
     _f("sim_crest_sigma", "float", "m", "Monte Carlo std of crest_level (with --simulate)"),
     _f("sim_margin_sigma", "float", "m", "Monte Carlo std of margin (with --simulate)"),
+    # --- profile reading: berms and the characteristic slope
+    _f("outer_berm_level", "float", "m", "Level of the outer berm (empty where none)"),
+    _f("outer_berm_width", "float", "m", "Width of the outer berm between the slope lines"),
+    _f("outer_berm_slope", "float", "m/m", "Gradient of the outer berm (+ falling outward)"),
+    _f("inner_berm_level", "float", "m", "Level of the inner berm (empty where none)"),
+    _f("inner_berm_width", "float", "m", "Width of the inner berm between the slope lines"),
+    _f("inner_berm_slope", "float", "m/m", "Gradient of the inner berm (+ falling landward)"),
+    _f("outer_lower_slope", "float", "n of 1:n", "Outer slope below the berm (= outer_slope if none)"),
+    _f("characteristic_slope", "float", "n of 1:n",
+       "EurOtop (2018) average outer slope, SWL - 1.5 Hm0 to Ru2% or crest, berm excluded; "
+       "used for the freeboard"),
 )
 
 # --- several surveys (trajectory.epochs): stations and stretches fields, the `epochs` layer
