@@ -45,6 +45,8 @@ def definition(row: dict[str, Any]) -> QgsProcessingParameterDefinition:
             p.setMinimum(row["min"])
         if row["max"] is not None:
             p.setMaximum(row["max"])
+        if kind == QgsProcessingParameterNumber.Double:
+            p.setMetadata({"widget_wrapper": {"decimals": 3}})
     help_text = row["help"]
     if row["min_exclusive"]:
         help_text += f" Must be greater than {row['min']:g}."
