@@ -104,25 +104,8 @@ def test_parameter_definitions_match_params_table(qgis_python):
 
 
 # ------------------------------------------------------------- headless run
-@pytest.mark.slow
-def test_processing_run_matches_cli_value_by_value(qgis_python, demo, tmp_path):
-    approach = "mean"
-    choices = next(r["choices"] for r in parameter_table() if r["name"] == "approach")
-    gis_out = tmp_path / "gis" / "r.gpkg"
-    gis_out.parent.mkdir()
-    answer = _drive(qgis_python, "assess", json.dumps(
-        {**_inputs(demo), "spacing": 20.0, "approach": choices.index(approach),
-         "chunk_size": 16, "out": str(gis_out)}))
-    cli_out = tmp_path / "cli" / "r.gpkg"
-    res = CliRunner().invoke(main, [
-        "assess", "--centreline", str(demo["centreline"]), "--dem", str(demo["dem"]),
-        "--conditions", str(demo["sections"]), "--out", str(cli_out), "--quiet",
-        "--spacing", "20", "--approach", approach, "--chunk-size", "16"])
-    assert res.exit_code == 0, res.output
-    assert answer["progress"] and answer["progress"][-1] == pytest.approx(100.0)
-    assert Path(answer["result"]["out"]) == gis_out
-    assert Path(answer["result"]["table"]).is_file()
-
+def _assert_same_layers(gis_out: Path, cli_out: Path) -> None:
+    """Stations and stretches of two GeoPackages agree value by value."""
     for layer in ("stations", "stretches"):
         a = pyogrio.read_dataframe(gis_out, layer=layer)
         b = pyogrio.read_dataframe(cli_out, layer=layer)
@@ -138,6 +121,31 @@ def test_processing_run_matches_cli_value_by_value(qgis_python, demo, tmp_path):
                                            rtol=1e-9, atol=1e-9, equal_nan=True, err_msg=col)
             else:
                 assert a[col].tolist() == b[col].tolist(), col
+
+
+def _cli_run(demo, out: Path, *args: str) -> None:
+    res = CliRunner().invoke(main, [
+        "assess", "--centreline", str(demo["centreline"]), "--dem", str(demo["dem"]),
+        "--conditions", str(demo["sections"]), "--out", str(out), "--quiet", *args])
+    assert res.exit_code == 0, res.output
+
+
+@pytest.mark.slow
+def test_processing_run_matches_cli_value_by_value(qgis_python, demo, tmp_path):
+    approach = "mean"
+    choices = next(r["choices"] for r in parameter_table() if r["name"] == "approach")
+    gis_out = tmp_path / "gis" / "r.gpkg"
+    gis_out.parent.mkdir()
+    answer = _drive(qgis_python, "assess", json.dumps(
+        {**_inputs(demo), "spacing": 20.0, "approach": choices.index(approach),
+         "chunk_size": 16, "out": str(gis_out)}))
+    cli_out = tmp_path / "cli" / "r.gpkg"
+    _cli_run(demo, cli_out, "--spacing", "20", "--approach", approach, "--chunk-size", "16")
+    assert answer["progress"] and answer["progress"][-1] == pytest.approx(100.0)
+    assert Path(answer["result"]["out"]) == gis_out
+    assert Path(answer["result"]["table"]).is_file()
+
+    _assert_same_layers(gis_out, cli_out)
     stretches = pyogrio.read_dataframe(cli_out, layer="stretches")
     deficit = float(stretches.loc[stretches["status"] == "deficit", "length"].sum())
     assert answer["result"]["length_deficit"] == pytest.approx(deficit)
@@ -146,6 +154,34 @@ def test_processing_run_matches_cli_value_by_value(qgis_python, demo, tmp_path):
     meta = pyogrio.read_dataframe(gis_out, layer="run_metadata")
     values = dict(zip(meta["key"], meta["value"]))
     assert values["param_spacing"] == "20.0" and values["param_approach"] == approach
+
+
+@pytest.mark.slow
+def test_host_command_line_runner_matches_cli(qgis_python, demo, tmp_path):
+    """qgis_process (the host's headless runner) with the plugin installed the user's way.
+
+    Inside the host the GDAL/GEOS/PROJ of the host are loaded first, so this also proves
+    the QGIS-side packages use those libraries and not clashing bundled copies.
+    """
+    env = {k: v for k, v in os.environ.items() if k not in ("PYTHONPATH", "PYTHONHOME")}
+    env["QGIS_CUSTOM_CONFIG_PATH"] = str(tmp_path / "profile")
+    env["PYTHON"] = sys.executable
+    inst = subprocess.run(["bash", str(ROOT / "scripts" / "install_plugin.sh")], env=env,
+                          capture_output=True, text=True, timeout=300)
+    assert inst.returncode == 0, inst.stderr
+    assert (Path(inst.stdout.strip().splitlines()[-1]) / "metadata.txt").is_file()
+    gis_out = tmp_path / "runner" / "r.gpkg"
+    args = [f"{k}={v}" for k, v in _inputs(demo).items()]
+    run = subprocess.run(["bash", str(ROOT / "scripts" / "qgis_process.sh"), "--json", "run",
+                          "trajectory:crest_assess", "--", *args, "spacing=50",
+                          f"out={gis_out}"], env=env, capture_output=True, text=True,
+                         timeout=600)
+    assert run.returncode == 0, run.stdout[-2000:] + run.stderr[-4000:]
+    answer = json.loads(run.stdout[run.stdout.index("{"):])
+    assert Path(answer["results"]["out"]) == gis_out
+    cli_out = tmp_path / "cli" / "r.gpkg"
+    _cli_run(demo, cli_out, "--spacing", "50")
+    _assert_same_layers(gis_out, cli_out)
 
 
 def test_cancel_through_feedback_leaves_no_file(qgis_python, demo, tmp_path):
