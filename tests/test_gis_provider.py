@@ -231,3 +231,22 @@ def test_plugin_zip_loads_in_host(qgis_python, tmp_path):
     # the zip's own engine is used, not the checkout's
     assert answer["engine"].startswith(answer["plugin_dir"])
     assert answer["unloaded"] is True
+
+
+def test_library_cancellation_from_progress_callback_writes_nothing(demo, tmp_path):
+    """The contract the GIS front end relies on: a callback raising RunCancelled aborts
+    assess() before any output exists (runs without QGIS)."""
+    from trajectory.assess import RunInputs, assess
+    from trajectory.errors import RunCancelled
+
+    calls = []
+
+    def progress(done: int, total: int) -> None:
+        calls.append((done, total))
+        raise RunCancelled("cancelled by the test")
+
+    with pytest.raises(RunCancelled):
+        assess(RunInputs(str(demo["centreline"]), str(demo["dem"]), str(demo["sections"])),
+               tmp_path / "r.gpkg", Settings(chunk_size=8), progress=progress)
+    assert calls and calls[0][0] < calls[0][1]
+    assert list(tmp_path.iterdir()) == []

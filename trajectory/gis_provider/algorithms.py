@@ -10,7 +10,6 @@ from qgis.core import (
     QgsProcessingAlgorithm,
     QgsProcessingContext,
     QgsProcessingException,
-    QgsProcessingOutputFile,
     QgsProcessingOutputNumber,
     QgsProcessingParameterFeatureSource,
     QgsProcessingParameterFileDestination,
@@ -82,7 +81,6 @@ class CrestAssessAlgorithm(QgsProcessingAlgorithm):
                                                      f"Length {status} [m]"))
             self.addOutput(QgsProcessingOutputNumber(f"stations_{status}",
                                                      f"Stations {status}"))
-        self.addOutput(QgsProcessingOutputFile("csv", "Deficit table written"))
 
     # ------------------------------------------------------------------ run
     def _inputs(self, parameters, context, feedback):
@@ -130,7 +128,7 @@ class CrestAssessAlgorithm(QgsProcessingAlgorithm):
         csv = Path(table) if table else Path(out).with_suffix(".csv")
         feedback.pushInfo(CAUTION)
         self._load_on_completion(out, context)
-        return {self.OUT: out, self.TABLE: str(csv), "csv": str(csv), **summary(result)}
+        return {self.OUT: out, self.TABLE: str(csv), **summary(result)}
 
     def _load_on_completion(self, out: str, context: QgsProcessingContext) -> None:
         project = context.project()
