@@ -38,5 +38,10 @@ class FileOverwriteError(TrajectoryError, FileExistsError):
     """The output exists and overwriting was not asked for."""
 
 
+# --- cancellation (issue 12: GIS front end)
+class RunCancelled(TrajectoryError):
+    """The user cancelled the run; raised from a progress callback, nothing is written."""
+
+
 class TrajectoryWarning(UserWarning):
     """Something was accepted but deserves the user's attention."""
