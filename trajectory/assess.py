@@ -25,7 +25,13 @@ from shapely.geometry import LineString
 
 from . import CAUTION, __version__
 from .chainage import Stations, make_stations
+from .checks import check_chunk_memory
+from .demread import DemReading, reading_rules, with_rules
 from .errors import InputError, ParameterError
+from .faults import (
+    FLAG_OFF_DEM, FLAG_READ_FAILED, ChunkFailure, Guarded, add_flag, blank_stations,
+    fill_failures, incomplete_text, off_dem, part_size, report_off_dem,
+)
 from .params import Settings
 from .profile import flag_text, read_profiles
 from .requirement import StationConditions, required_level
@@ -73,6 +79,7 @@ class _Chunk:
     conditions: StationConditions
     offsets: np.ndarray
     settings: Settings
+    dem_reading: DemReading | None = None
 
 
 _OPEN: dict[str, rasterio.io.DatasetReader] = {}
@@ -89,7 +96,8 @@ def _dataset(path: str) -> rasterio.io.DatasetReader:
 def _assess_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
     """Sample, read and judge the profiles of one chunk of stations."""
     s = chunk.settings
-    z = sample_profiles(_dataset(chunk.dem_path), chunk.stations, chunk.offsets)
+    ds = with_rules(_dataset(chunk.dem_path), chunk.dem_reading)
+    z = sample_profiles(ds, chunk.stations, chunk.offsets)
     # orient so that positive offsets point to the water (outer) side
     z = np.where((chunk.side > 0)[:, None], z, z[:, ::-1])
     prof = read_profiles(z, chunk.offsets, object_width=s.object_width,
@@ -143,6 +151,8 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     if not line_bounds_overlap(line, dem, s.half_width):
         raise InputError(f"{inputs.centreline}: the centreline does not overlap the DEM "
                          f"{inputs.dem}; check that both cover the same area and CRS")
+    # how DEM values become levels (fill values, vertical unit), from a window near the line
+    reading = reading_rules(dem.path, line, margin=s.half_width, z_scale=s.dem_z_scale)
     # read and validate the section conditions
     cond = read_conditions(inputs.conditions)
     # stations at fixed chainage with smoothed normals
@@ -152,32 +162,46 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     sec = cond.lookup(st.chainage)
     side = _water_side(cond, sec, s.water_side)
     step = s.sample_step or dem.cell
-    if s.half_width <= s.crest_search:
-        raise ParameterError(f"half_width ({s.half_width} m) must exceed crest_search "
-                             f"({s.crest_search} m) so the slopes are in the section")
     offsets = section_offsets(s.half_width, step)
+    too_big = check_chunk_memory(offsets.size, s.chunk_size)
+    if too_big:
+        raise ParameterError(too_big)
     log.info("%d stations over %.0f m, %d samples per section", len(st), line.length,
              offsets.size)
     # sample and interpret the cross-sections chunk by chunk
     slices = _chunks(len(st), s.chunk_size)
     tasks = [_Chunk(dem.path, st.take(sl), side[sl], _gather_conditions(cond, sec[sl]),
-                    offsets, s) for sl in slices]
-    parts: list[dict[str, np.ndarray]] = []
+                    offsets, s, reading) for sl in slices]
+    got: list[dict[str, np.ndarray] | ChunkFailure] = []
     done = 0
-    for part in _map(_assess_chunk, tasks, s.workers):
-        parts.append(part)
-        done += part["margin"].size
+    for part in _map(Guarded(_assess_chunk), tasks, s.workers):
+        got.append(part)
+        done += part_size(part)
         if progress is not None:
             progress(done, len(st))
+    # a chunk that could not be read: its stations no_data, the run incomplete
+    parts, failures = fill_failures(got, source=inputs.dem)
     cols = {k: np.concatenate([p[k] for p in parts]) for k in parts[0]}
     profiles = cols.pop("profiles")
+    off = off_dem(st.x, st.y, dem.bounds)
+    blank_stations(cols, off)
+    off_note = report_off_dem(st.chainage, off)
     # margin and status per station, then stretches of one status
     status = classify(cols["margin"], watch_band=s.watch_band)
     table = _station_table(st, side, cond, sec, cols, status)
+    table["flags"] = add_flag(table["flags"].to_numpy(), off, FLAG_OFF_DEM)
+    failed = np.zeros(len(st), dtype=bool)
+    for sl, p in zip(slices, got):
+        failed[sl] |= isinstance(p, ChunkFailure)
+    table["flags"] = add_flag(table["flags"].to_numpy(), failed, FLAG_READ_FAILED)
     end = s.start_chainage + line.length
     stretches = merge_stretches(st.chainage, status, cols["margin"],
                                 start=s.start_chainage, end=end)
     meta = _metadata(inputs, s, dem, crs, line)
+    if failures:
+        meta["incomplete"] = incomplete_text(failures)
+    if off_note:
+        meta["off_dem"] = off_note
     return Result(stations=table, stretches=stretches, line=line, crs=crs,
                   offsets=offsets, profiles=profiles, metadata=meta)
 

@@ -20,6 +20,7 @@ from pyproj import CRS, Transformer
 from shapely.geometry import LineString, MultiLineString
 from shapely.ops import linemerge, transform
 
+from .checks import check_file, check_parts, check_simple, is_raster, is_vector
 from .errors import ConditionsError, InputError, InputFileError
 
 log = logging.getLogger(__name__)
@@ -35,9 +36,10 @@ def read_centreline(
     Multi-feature or multi-part lines are joined in order; gaps up to
     ``gap_tolerance`` (m) are closed, larger ones refused.
     """
-    p = Path(path)
-    if not p.exists():
-        raise InputFileError(f"{p}: centreline file not found")
+    p = check_file(path, role="centreline", option="--centreline")
+    if not is_vector(p) and is_raster(p):
+        raise InputFileError(f"{p}: is a raster, not a line layer; give the centreline as a "
+                             "vector file (did you swap --centreline and --dem?)")
     layer = _pick_line_layer(p, layer)
     try:
         df = pyogrio.read_dataframe(p, layer=layer)
@@ -50,13 +52,17 @@ def read_centreline(
     if not geoms:
         raise InputError(f"{p}: layer {layer!r} holds no line geometry")
     line = _join_lines(geoms, source=str(p), tolerance=gap_tolerance)
+    if not line.length > 0:
+        raise InputError(f"{p}: the centreline has zero length; digitise the levee line")
+    check_simple(line, source=str(p))
     crs = CRS.from_user_input(df.crs)
     if target_crs is not None and not crs.equals(target_crs):
         tr = Transformer.from_crs(crs, target_crs, always_xy=True)
         line = transform(tr.transform, line)
         crs = target_crs
-    if line.length <= 0:
-        raise InputError(f"{p}: the centreline has zero length")
+    if not (line.length > 0 and np.isfinite(line.length)):
+        raise InputError(f"{p}: the centreline cannot be placed in the DEM's CRS "
+                         f"({crs.name}); check the CRS assigned to the centreline")
     return line, crs
 
 
@@ -87,7 +93,10 @@ def _join_lines(geoms: list, *, source: str, tolerance: float) -> LineString:
         elif isinstance(g, LineString):
             parts.append(g)
         else:
-            raise InputError(f"{source}: geometry of type {g.geom_type} is not a line")
+            raise InputError(f"{source}: geometry of type {g.geom_type} is not a line; "
+                             "give the centreline as a LineString layer")
+    parts = [LineString(np.asarray(q.coords)[:, :2]) for q in parts if not q.is_empty]
+    check_parts(parts, source=source, tolerance=tolerance)
     if len(parts) == 1:
         return LineString(np.asarray(parts[0].coords)[:, :2])
     merged = linemerge(MultiLineString([LineString(np.asarray(q.coords)[:, :2]) for q in parts]))
@@ -124,12 +133,16 @@ class DemInfo:
 def open_dem(path: str | Path) -> DemInfo:
     """Open the terrain model and check it is usable for metric work."""
     p = str(path)
-    if not Path(p).exists() and not p.startswith(("/vsi", "http")):
-        raise InputFileError(f"{p}: DEM file not found")
+    if not p.startswith(("/vsi", "http")):
+        check_file(p, role="DEM", option="--dem")
     try:
         with rasterio.open(p) as ds:
             crs, res, nodata, b = ds.crs, ds.res, ds.nodata, ds.bounds
     except rasterio.errors.RasterioIOError as exc:
+        if is_vector(p):
+            raise InputFileError(f"{p}: is a vector file, not a raster; give the terrain "
+                                 "model as a raster (did you swap --centreline and --dem?)"
+                                 ) from exc
         raise InputFileError(f"{p}: not a raster GDAL can read ({exc})") from exc
     if crs is None:
         raise InputError(f"{p}: the DEM has no coordinate reference system; assign one")
