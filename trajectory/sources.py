@@ -246,6 +246,9 @@ def validate_conditions(raw: pd.DataFrame) -> tuple[pd.DataFrame, list[str]]:
         vals = pd.to_numeric(raw[col].str.strip(), errors="coerce")
         for i in np.flatnonzero(vals.isna().to_numpy()):
             findings.append(f"row {i + 2}, column {col}: {raw[col].iloc[i]!r} is not a number")
+        for i in np.flatnonzero(np.isinf(vals.to_numpy(float))):
+            findings.append(f"row {i + 2}, column {col}: {raw[col].iloc[i]!r} is not a "
+                            "finite number")
         out[col] = vals.astype(float)
         if col in _RULES:
             lo, hi, excl = _RULES[col]
