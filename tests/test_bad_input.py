@@ -341,6 +341,22 @@ def test_conditions_not_covering_the_line(small, tmp_path):
         run(_inputs(small, conditions=p))
 
 
+def test_sections_beyond_the_line_are_reported(small, tmp_path, caplog):
+    rows = [GOOD.replace("A,0,600", "A,0,700"), GOOD.replace("A,0,600", "Z,700,1000")]
+    with caplog.at_level(logging.WARNING):
+        res = run(_inputs(small, conditions=_conditions(tmp_path, *rows)))
+    assert set(res.stations["section_id"]) == {"A"}
+    assert "section 'Z' (700-1000 m) lies outside the line's chainage (0-600 m)" in caplog.text
+
+
+def test_tiny_wave_height_and_period_are_not_design_conditions(tmp_path):
+    row = GOOD.replace(",0.6,3,", ",1e-12,0.01,")
+    with pytest.raises(ConditionsError) as err:
+        read_conditions(_conditions(tmp_path, row))
+    assert "column hm0: 1e-12 m is below 0.01 m; give 0 for no waves" in str(err.value)
+    assert "column tm10: 0.01 s is below 0.1 s" in str(err.value)
+
+
 # ------------------------------------------------------------- parameters
 @pytest.mark.parametrize("change, pattern", [
     ({"spacing": 0.0}, "spacing must be > 0"),

@@ -25,7 +25,7 @@ from shapely.geometry import LineString
 
 from . import CAUTION, __version__
 from .chainage import Stations, make_stations
-from .checks import check_chunk_memory
+from .checks import check_chunk_memory, sections_off_the_line
 from .demread import DemReading, reading_rules, with_rules
 from .errors import InputError, ParameterError
 from .faults import (
@@ -159,6 +159,8 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     st = make_stations(line, spacing=s.spacing, start_chainage=s.start_chainage,
                        reverse=s.reverse, smooth_length=s.smooth_length)
     check_conditions_cover(cond, st.chainage, source=inputs.conditions)
+    for note in sections_off_the_line(cond.table, st.chainage.min(), st.chainage.max()):
+        log.warning("%s: %s", inputs.conditions, note)
     sec = cond.lookup(st.chainage)
     side = _water_side(cond, sec, s.water_side)
     step = s.sample_step or dem.cell

@@ -113,6 +113,47 @@ def check_simple(line: LineString, *, source: str) -> None:
                      "cross and assess them separately")
 
 
+# ---------------------------------------------------------------- conditions
+#: smallest wave height (m) that is not "no waves" and smallest period (s); below these
+#: the overtopping formulas meet underflow and the values are no design condition
+#: (common practice: wave heights are given to the centimetre)
+MIN_WAVE_HEIGHT = 0.01
+MIN_WAVE_PERIOD = 0.1
+#: smallest roughness factor gamma_f accepted (EurOtop 2018 Table 6.2 lists about 0.38
+#: for armour units as its lowest values, from memory)
+MIN_ROUGHNESS = 0.3
+
+
+def condition_plausibility(t: Any) -> list[str]:
+    """Findings on conditions values each within its rule but not a design condition."""
+    findings = []
+    hm0 = t["hm0"].to_numpy(float)
+    for i in np.flatnonzero((hm0 > 0) & (hm0 < MIN_WAVE_HEIGHT)):
+        findings.append(f"row {i + 2}, column hm0: {hm0[i]:g} m is below {MIN_WAVE_HEIGHT} m; "
+                        "give 0 for no waves")
+    gf = t["roughness"].to_numpy(float)
+    for i in np.flatnonzero((gf > 0) & (gf < MIN_ROUGHNESS)):
+        findings.append(f"row {i + 2}, column roughness: {gf[i]:g} is below {MIN_ROUGHNESS}, "
+                        "rougher than any published slope surface")
+    wl = t["water_level"].to_numpy(float)
+    for i in np.flatnonzero((wl < -500.0) | (wl > 9000.0)):
+        findings.append(f"row {i + 2}, column water_level: {wl[i]:g} m is not a level in "
+                        "metres (check the unit and the datum)")
+    tm = t["tm10"].to_numpy(float)
+    for i in np.flatnonzero((tm > 0) & (tm < MIN_WAVE_PERIOD)):
+        findings.append(f"row {i + 2}, column tm10: {tm[i]:g} s is below {MIN_WAVE_PERIOD} s; "
+                        "check the unit (seconds)")
+    return findings
+
+
+def sections_off_the_line(t: Any, first: float, last: float) -> list[str]:
+    """Sections lying wholly outside the stations' chainage ``first``-``last`` (not used)."""
+    lo, hi = t["from_chainage"].to_numpy(float), t["to_chainage"].to_numpy(float)
+    return [f"section {sid!r} ({a:g}-{b:g} m) lies outside the line's chainage "
+            f"({first:g}-{last:g} m) and is not used; check its chainage or --start-chainage"
+            for sid, a, b in zip(t["section_id"], lo, hi) if b < first or a > last]
+
+
 # ---------------------------------------------------------------- parameters
 def settings_consistency(s: Any) -> list[str]:
     """Findings on parameters that are each in range but do not fit together."""

@@ -10,13 +10,14 @@ import dataclasses
 import logging
 import signal
 import sys
+import warnings
 from collections.abc import Callable
 from typing import Any
 
 import click
 
 from . import CAUTION, __version__
-from .errors import FileOverwriteError, TrajectoryError
+from .errors import FileOverwriteError, TrajectoryError, TrajectoryWarning
 from .params import Settings, load_run_file
 
 log = logging.getLogger("trajectory")
@@ -53,6 +54,8 @@ def _setup_logging(quiet: bool, debug: bool) -> None:
     logging.basicConfig(level=level, format="%(levelname)s: %(message)s", stream=sys.stderr)
     # GDAL's writer logs every layer at INFO; keep ours readable
     logging.getLogger("pyogrio").setLevel(logging.WARNING)
+    # the library logs each TrajectoryWarning too; show it once, as a log line
+    warnings.simplefilter("ignore", TrajectoryWarning)
 
 
 def _build_settings(config: str | None, given: dict[str, Any]) -> Settings:

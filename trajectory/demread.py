@@ -140,7 +140,12 @@ def _probe(ds: rasterio.io.DatasetReader, line: LineString, margin: float) -> np
     h, w = max(int(win.height), 1), max(int(win.width), 1)
     k = max(h, w) / PROBE_CELLS
     shape = (max(int(h / k), 1), max(int(w / k), 1)) if k > 1 else (h, w)
-    return ds.read(1, window=win, out_shape=shape, masked=True)
+    band = ds.read(1, window=win, out_shape=shape, masked=True)
+    if ds.nodata is not None:  # decimated reads of mosaics do not always carry the mask
+        data = np.ma.getdata(band)
+        nod = np.isnan(data) if np.isnan(ds.nodata) else data == ds.nodata
+        band = np.ma.MaskedArray(data, mask=np.ma.getmaskarray(band) | nod)
+    return band
 
 
 class _RuledDataset:

@@ -20,7 +20,9 @@ from pyproj import CRS, Transformer
 from shapely.geometry import LineString, MultiLineString
 from shapely.ops import linemerge, transform
 
-from .checks import check_file, check_parts, check_simple, is_raster, is_vector
+from .checks import (
+    check_file, check_parts, check_simple, condition_plausibility, is_raster, is_vector,
+)
 from .errors import ConditionsError, InputError, InputFileError
 
 log = logging.getLogger(__name__)
@@ -257,6 +259,7 @@ def validate_conditions(raw: pd.DataFrame) -> tuple[pd.DataFrame, list[str]]:
             for i in np.flatnonzero(bad):
                 findings.append(f"row {i + 2}, column {col}: {v[i]:g} breaks the rule "
                                 f"{CONDITION_COLUMNS[col][1]}")
+    findings += condition_plausibility(out)
     if "water_side" in raw.columns:
         ws = raw["water_side"].fillna("").str.strip().str.lower()
         for i in np.flatnonzero(~ws.isin(["", "left", "right"]).to_numpy()):
