@@ -70,7 +70,8 @@ def _write_dem(path, small, array=None, **profile):
 
 # ------------------------------------------------------------------ files
 def test_missing_centreline_names_file_and_option(small, tmp_path):
-    with pytest.raises(InputFileError, match=r"nowhere\.gpkg: centreline file not found.*--centreline"):
+    with pytest.raises(InputFileError,
+                       match=r"nowhere\.gpkg: centreline file not found.*--centreline"):
         run(_inputs(small, centreline=tmp_path / "nowhere.gpkg"))
 
 
@@ -337,7 +338,8 @@ def test_conditions_gap_and_overlap(tmp_path):
 
 def test_conditions_not_covering_the_line(small, tmp_path):
     p = _conditions(tmp_path, GOOD.replace("A,0,600", "A,0,400"))
-    with pytest.raises(ConditionsError, match=r"outside every section, chainage 425\.0-600\.0 m; extend"):
+    with pytest.raises(ConditionsError,
+                       match=r"outside every section, chainage 425\.0-600\.0 m; extend"):
         run(_inputs(small, conditions=p))
 
 

@@ -60,7 +60,8 @@ def remove_stale_partials(path: str | Path) -> list[Path]:
     the temporary of a run still going on is left alone. Returns the removed paths.
     """
     final = Path(path)
-    pattern = re.compile(rf"^\.{re.escape(final.stem)}\.(\d+)\.partial{re.escape(final.suffix)}(-journal|-wal|-shm)?$")
+    pattern = re.compile(rf"^\.{re.escape(final.stem)}\.(\d+)\.partial"
+                         rf"{re.escape(final.suffix)}(-journal|-wal|-shm)?$")
     removed = []
     if not final.parent.is_dir():
         return removed
