@@ -21,7 +21,7 @@ from rasterio.crs import CRS as RioCRS
 from shapely.geometry import LineString, MultiLineString, Point
 
 from trajectory.assess import RunInputs, run
-from trajectory.cli import EXIT_INPUT, EXIT_INTERNAL, main
+from trajectory.cli import EXIT_INPUT, EXIT_INTERNAL, EXIT_INTERRUPTED, main
 from trajectory.errors import (
     ConditionsError, InputError, InputFileError, ParameterError, TrajectoryWarning,
 )
@@ -88,6 +88,18 @@ def test_empty_files_are_named_as_empty(small, tmp_path):
     csv.write_text("")
     with pytest.raises(InputError, match=r"empty\.csv"):
         run(_inputs(small, conditions=csv))
+
+
+def test_garbage_files_are_named_as_unreadable(small, tmp_path):
+    junk = tmp_path / "junk.gpkg"
+    junk.write_bytes(b"\x00\x17not a file format\xff" * 50)
+    with pytest.raises(InputFileError, match=r"junk\.gpkg: not a vector file GDAL can read"):
+        run(_inputs(small, centreline=junk))
+    with pytest.raises(InputFileError, match=r"junk\.gpkg: not a raster GDAL can read"):
+        run(_inputs(small, dem=junk))
+    # a GeoPackage given as the conditions table
+    with pytest.raises(InputError, match=r"levee\.gpkg"):
+        read_conditions(small["centreline"])
 
 
 def test_folder_given_as_file(small, tmp_path):
@@ -398,6 +410,16 @@ def test_cli_bad_input_is_one_line_without_traceback(small, tmp_path):
     assert res.output.startswith("Error: ") and "swap" in res.output
     assert "Traceback" not in res.output
     assert not (tmp_path / "r.gpkg").exists()
+
+
+def test_cli_interrupt_says_nothing_was_replaced(small, tmp_path, monkeypatch):
+    def interrupted(*a, **k):
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr("trajectory.assess.run", interrupted)
+    res = CliRunner().invoke(main, _cli_args(small, tmp_path / "r.gpkg"))
+    assert res.exit_code == EXIT_INTERRUPTED
+    assert "interrupted; no output was replaced" in res.output
 
 
 def test_cli_unexpected_failure_is_one_line_and_debug_shows_it(small, tmp_path, monkeypatch):

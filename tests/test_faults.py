@@ -95,6 +95,7 @@ def test_corrupt_tile_gives_no_data_stations_and_an_incomplete_run(tiled, tmp_pa
     # the message names the chainage range of the failed stations
     c = st["chainage"][failed]
     assert f"chainage {c.min():.1f}-" in res.output
+    assert (tmp_path / "r.csv").read_text().splitlines()[1].startswith("# INCOMPLETE")
     meta = pyogrio.read_dataframe(out, layer="run_metadata")
     kv = dict(zip(meta["key"], meta["value"]))
     assert tile.name in kv["incomplete"]

@@ -98,6 +98,8 @@ def _join_lines(geoms: list, *, source: str, tolerance: float) -> LineString:
             raise InputError(f"{source}: geometry of type {g.geom_type} is not a line; "
                              "give the centreline as a LineString layer")
     parts = [LineString(np.asarray(q.coords)[:, :2]) for q in parts if not q.is_empty]
+    if not parts:
+        raise InputError(f"{source}: the line features are empty; digitise the levee line")
     check_parts(parts, source=source, tolerance=tolerance)
     if len(parts) == 1:
         return LineString(np.asarray(parts[0].coords)[:, :2])
