@@ -88,6 +88,11 @@ def test_corrupt_tile_gives_no_data_stations_and_an_incomplete_run(tiled, tmp_pa
         np.stack([intact["x"] + hw * intact["nx"], intact["y"] + hw * intact["ny"]], 1)], 1))
     crosses = shapely.intersects(seg, shapely.box(*bounds[tile]))
     assert crosses.any() and failed[crosses].all()
+    # and only stations whose section window (its bounding box) reaches the tile failed:
+    # the failing chunk is retried station by station
+    reach = shapely.intersects(shapely.buffer(shapely.envelope(seg), 1.0, join_style="mitre"),
+                               shapely.box(*bounds[tile]))
+    assert not failed[~reach].any()
     # stations of readable chunks are exactly as in the intact run
     keep = ~failed
     assert np.array_equal(st["crest_level"][keep].to_numpy(),
@@ -102,8 +107,10 @@ def test_corrupt_tile_gives_no_data_stations_and_an_incomplete_run(tiled, tmp_pa
 
 
 def test_all_chunks_failing_is_an_error():
+    from trajectory.chainage import Stations
+
     class Boom:
-        stations = type("S", (), {"chainage": np.array([0.0, 25.0])})()
+        stations = Stations(*[np.array([0.0, 25.0])] * 6)
 
     def fail(chunk):
         raise rasterio.errors.RasterioIOError("tile gone")
@@ -112,6 +119,7 @@ def test_all_chunks_failing_is_an_error():
     assert isinstance(got, ChunkFailure) and got.describe().startswith("chainage 0.0-25.0 m")
     from trajectory.faults import fill_failures
 
+    assert Guarded(fail, lambda c, i: c)(Boom()) == got  # every station fails alike
     with pytest.raises(InputError, match="could not be read anywhere along the line.*tile gone"):
         fill_failures([got], source="dem.vrt")
 

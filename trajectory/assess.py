@@ -8,6 +8,7 @@ operations, so memory is bounded by the chunk size, not by the line's length.
 
 from __future__ import annotations
 
+import dataclasses
 import logging
 import os
 from collections.abc import Callable, Iterator
@@ -29,8 +30,9 @@ from .checks import check_chunk_memory, sections_off_the_line
 from .demread import DemReading, reading_rules, with_rules
 from .errors import InputError, ParameterError
 from .faults import (
-    FLAG_OFF_DEM, FLAG_READ_FAILED, ChunkFailure, Guarded, add_flag, blank_stations,
-    fill_failures, incomplete_text, off_dem, part_size, report_off_dem,
+    FLAG_OFF_DEM, FLAG_READ_FAILED, READ_ERROR, ChunkFailure, Guarded, add_flag,
+    blank_stations, failure_runs, fill_failures, incomplete_text, off_dem, part_size,
+    report_off_dem,
 )
 from .params import Settings
 from .profile import flag_text, read_profiles
@@ -113,6 +115,15 @@ def _assess_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
     return out
 
 
+def _one_station(chunk: _Chunk, i: int) -> _Chunk:
+    """The chunk of station ``i`` alone (to narrow down a read failure)."""
+    sl = slice(i, i + 1)
+    c = chunk.conditions
+    return dataclasses.replace(chunk, stations=chunk.stations.take(sl), side=chunk.side[sl],
+                               conditions=type(c)(**{f: getattr(c, f)[sl]
+                                                     for f in c.__dataclass_fields__}))
+
+
 def _chunks(n: int, size: int) -> list[slice]:
     return [slice(i, min(i + size, n)) for i in range(0, n, size)]
 
@@ -176,15 +187,17 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
                     offsets, s, reading) for sl in slices]
     got: list[dict[str, np.ndarray] | ChunkFailure] = []
     done = 0
-    for part in _map(Guarded(_assess_chunk), tasks, s.workers):
+    for part in _map(Guarded(_assess_chunk, _one_station), tasks, s.workers):
         got.append(part)
         done += part_size(part)
         if progress is not None:
             progress(done, len(st))
     # a chunk that could not be read: its stations no_data, the run incomplete
-    parts, failures = fill_failures(got, source=inputs.dem)
+    parts = fill_failures(got, source=inputs.dem)
     cols = {k: np.concatenate([p[k] for p in parts]) for k in parts[0]}
     profiles = cols.pop("profiles")
+    read_error = cols.pop(READ_ERROR)
+    failures = failure_runs(st.chainage, read_error)
     off = off_dem(st.x, st.y, dem.bounds)
     blank_stations(cols, off)
     off_note = report_off_dem(st.chainage, off)
@@ -192,9 +205,7 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     status = classify(cols["margin"], watch_band=s.watch_band)
     table = _station_table(st, side, cond, sec, cols, status)
     table["flags"] = add_flag(table["flags"].to_numpy(), off, FLAG_OFF_DEM)
-    failed = np.zeros(len(st), dtype=bool)
-    for sl, p in zip(slices, got):
-        failed[sl] |= isinstance(p, ChunkFailure)
+    failed = np.array([e is not None for e in read_error], dtype=bool)
     table["flags"] = add_flag(table["flags"].to_numpy(), failed, FLAG_READ_FAILED)
     end = s.start_chainage + line.length
     stretches = merge_stretches(st.chainage, status, cols["margin"],

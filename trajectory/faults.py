@@ -57,18 +57,40 @@ def _cause_text(exc: BaseException) -> str:
     return texts[0] if texts else type(exc).__name__
 
 
+#: per-station column carrying the read error (None where the station was read)
+READ_ERROR = "_read_error"
+
+
 class Guarded:
-    """Call ``fn(chunk)``; a terrain read error becomes a :class:`ChunkFailure` (picklable)."""
+    """Call ``fn(chunk)``; a terrain read error is narrowed down station by station.
 
-    def __init__(self, fn: Callable[[Any], dict[str, np.ndarray]]):
+    When the whole chunk fails and ``split(chunk, i)`` is given (the chunk of
+    its i-th station alone), each station is retried, so only the stations whose
+    sections touch the unreadable part lose their values. Picklable when ``fn``
+    and ``split`` are module-level functions.
+    """
+
+    def __init__(self, fn: Callable[[Any], dict[str, np.ndarray]],
+                 split: Callable[[Any, int], Any] | None = None):
         self.fn = fn
+        self.split = split
 
-    def __call__(self, chunk: Any) -> dict[str, np.ndarray] | ChunkFailure:
+    def _one(self, chunk: Any) -> dict[str, np.ndarray] | ChunkFailure:
         try:
             return self.fn(chunk)
         except READ_ERRORS as exc:
             c = chunk.stations.chainage
             return ChunkFailure(float(c.min()), float(c.max()), int(c.size), _cause_text(exc))
+
+    def __call__(self, chunk: Any) -> dict[str, np.ndarray] | ChunkFailure:
+        whole = self._one(chunk)
+        n = len(chunk.stations)
+        if not isinstance(whole, ChunkFailure) or self.split is None or n == 1:
+            return whole
+        pieces = [self._one(self.split(chunk, i)) for i in range(n)]
+        if all(isinstance(p, ChunkFailure) for p in pieces):
+            return whole
+        return _merge(pieces)
 
 
 def part_size(part: dict[str, np.ndarray] | ChunkFailure) -> int:
@@ -87,36 +109,62 @@ def _empty_like(a: np.ndarray, n: int) -> np.ndarray:
     return np.zeros(shape, dtype=a.dtype)
 
 
+def _normalised(p: dict[str, np.ndarray] | ChunkFailure,
+                template: dict[str, np.ndarray]) -> dict[str, np.ndarray]:
+    """``p`` with the READ_ERROR column; a failure as empty values (NaN, no_data)."""
+    if isinstance(p, ChunkFailure):
+        out = {k: _empty_like(v, p.stations) for k, v in template.items() if k != READ_ERROR}
+        out[READ_ERROR] = np.full(p.stations, p.message, dtype=object)
+        return out
+    if READ_ERROR not in p:
+        p = dict(p)
+        p[READ_ERROR] = np.full(part_size(p), None, dtype=object)
+    return p
+
+
+def _merge(pieces: list[dict[str, np.ndarray] | ChunkFailure]) -> dict[str, np.ndarray]:
+    template = next(p for p in pieces if not isinstance(p, ChunkFailure))
+    parts = [_normalised(p, template) for p in pieces]
+    return {k: np.concatenate([p[k] for p in parts]) for k in parts[0]}
+
+
 def fill_failures(parts: list[dict[str, np.ndarray] | ChunkFailure], *, source: str,
-                  ) -> tuple[list[dict[str, np.ndarray]], list[ChunkFailure]]:
-    """Replace each failure by empty values (NaN, no_data); return parts and failures.
+                  ) -> list[dict[str, np.ndarray]]:
+    """Every part as columns with a READ_ERROR column; failures as empty values.
 
     Raises
     ------
     InputError
         When every chunk failed: there is nothing to assess.
     """
-    failures: list[ChunkFailure] = []
-    for p in parts:  # neighbouring failed chunks with one cause make one range
-        if not isinstance(p, ChunkFailure):
-            failures.append(None)  # type: ignore[arg-type]
-        elif failures and failures[-1] is not None and failures[-1].message == p.message:
-            f = failures[-1]
-            failures[-1] = ChunkFailure(f.first_chainage, p.last_chainage,
-                                        f.stations + p.stations, f.message)
-        else:
-            failures.append(p)
-    failures = [f for f in failures if f is not None]
     good = [p for p in parts if not isinstance(p, ChunkFailure)]
     if not good:
+        first = next(p for p in parts if isinstance(p, ChunkFailure))
         raise InputError(f"{source}: the DEM could not be read anywhere along the line "
-                         f"({failures[0].message}); check the file and its tiles")
-    template = good[0]
-    for f in failures:
+                         f"({first.message}); check the file and its tiles")
+    return [_normalised(p, good[0]) for p in parts]
+
+
+def failure_runs(chainage: np.ndarray, read_error: np.ndarray) -> list[ChunkFailure]:
+    """Consecutive stations with one read error, as failures with their chainage range.
+
+    Logs a warning for each.
+    """
+    failed = np.array([e is not None for e in read_error], dtype=bool)
+    out: list[ChunkFailure] = []
+    for i in np.flatnonzero(failed):
+        msg = str(read_error[i])
+        f = out[-1] if out else None
+        if f is not None and f.message == msg and failed[i - 1] and i > 0:
+            out[-1] = ChunkFailure(f.first_chainage, float(chainage[i]), f.stations + 1, msg)
+        else:
+            out.append(ChunkFailure(float(chainage[i]), float(chainage[i]), 1, msg))
+    out = [ChunkFailure(min(f.first_chainage, f.last_chainage),
+                        max(f.first_chainage, f.last_chainage), f.stations, f.message)
+           for f in out]
+    for f in out:
         log.warning("could not read the DEM for %s; these stations are no_data", f.describe())
-    out = [{k: _empty_like(v, p.stations) for k, v in template.items()}
-           if isinstance(p, ChunkFailure) else p for p in parts]
-    return out, failures
+    return out
 
 
 def blank_stations(cols: dict[str, np.ndarray], mask: np.ndarray) -> None:
