@@ -155,7 +155,7 @@ def failure_runs(chainage: np.ndarray, read_error: np.ndarray) -> list[ChunkFail
     for i in np.flatnonzero(failed):
         msg = str(read_error[i])
         f = out[-1] if out else None
-        if f is not None and f.message == msg and failed[i - 1] and i > 0:
+        if f is not None and f.message == msg and i > 0 and failed[i - 1]:
             out[-1] = ChunkFailure(f.first_chainage, float(chainage[i]), f.stations + 1, msg)
         else:
             out.append(ChunkFailure(float(chainage[i]), float(chainage[i]), 1, msg))
