@@ -88,6 +88,10 @@ def test_parameter_definitions_match_params_table(qgis_python):
         elif row["type"] == "bool":
             assert p["type"] == "boolean"
             assert p["default"] is row["default"]
+        elif row["type"] == "str":
+            # text parameters are optional file paths; "" (not given) is the table's default
+            assert p["type"] == "file" and row["default"] == ""
+            assert p["default"] in (None, "")
         else:
             assert (p["type"], p["data_type"]) == kinds[row["type"]]
             assert p["default"] == row["default"]

@@ -26,9 +26,16 @@ from shapely.geometry import LineString
 
 from . import CAUTION, __version__
 from .chainage import Stations, crossing_sections, make_stations
+from .checks import check_chunk_memory, sections_off_the_line
+from .demread import DemReading, reading_rules, with_rules
 from .epoch_sources import crest_from_result, open_earlier_dem
 from .epochs import Epoch, EpochLevels, assess_epochs, check_order
 from .errors import InputError, ParameterError
+from .faults import (
+    FLAG_OFF_DEM, FLAG_READ_FAILED, READ_ERROR, ChunkFailure, Guarded, add_flag,
+    blank_stations, failure_runs, fill_failures, incomplete_text, off_dem, part_size,
+    report_off_dem,
+)
 from .params import Settings
 from .profile import FLAGS, flag_text, read_profiles
 from .profile_conditions import outer_characteristic_slope
@@ -88,6 +95,7 @@ class _Chunk:
     conditions: StationConditions
     offsets: np.ndarray
     settings: Settings
+    dem_reading: DemReading | None = None
 
 
 _OPEN: dict[str, rasterio.io.DatasetReader] = {}
@@ -104,7 +112,8 @@ def _dataset(path: str) -> rasterio.io.DatasetReader:
 def _assess_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
     """Sample, read and judge the profiles of one chunk of stations."""
     s = chunk.settings
-    z = sample_profiles(_dataset(chunk.dem_path), chunk.stations, chunk.offsets)
+    ds = with_rules(_dataset(chunk.dem_path), chunk.dem_reading)
+    z = sample_profiles(ds, chunk.stations, chunk.offsets)
     # orient so that positive offsets point to the water (outer) side
     z = np.where((chunk.side > 0)[:, None], z, z[:, ::-1])
     prof = read_profiles(z, chunk.offsets, object_width=s.object_width,
@@ -134,6 +143,15 @@ def _assess_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
                         accuracy=acc, chunk_key=int(chunk.stations.along[0] * 1000)))
     out["profiles"] = z.astype(np.float32)
     return out
+
+
+def _one_station(chunk: _Chunk, i: int) -> _Chunk:
+    """The chunk of station ``i`` alone (to narrow down a read failure)."""
+    sl = slice(i, i + 1)
+    c = chunk.conditions
+    return dataclasses.replace(chunk, stations=chunk.stations.take(sl), side=chunk.side[sl],
+                               conditions=type(c)(**{f: getattr(c, f)[sl]
+                                                     for f in c.__dataclass_fields__}))
 
 
 def _chunks(n: int, size: int) -> list[slice]:
@@ -176,6 +194,8 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     if not line_bounds_overlap(line, dem, s.half_width):
         raise InputError(f"{inputs.centreline}: the centreline does not overlap the DEM "
                          f"{inputs.dem}; check that both cover the same area and CRS")
+    # how DEM values become levels (fill values, vertical unit), from a window near the line
+    reading = reading_rules(dem.path, line, margin=s.half_width, z_scale=s.dem_z_scale)
     # read and validate the section conditions
     cond = read_conditions(inputs.conditions, layer=inputs.conditions_layer,
                            target_crs=dem.crs)
@@ -185,35 +205,48 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
                        reverse=s.reverse, smooth_length=s.smooth_length, chainages=listed)
     # the section of each station: by chainage range, or by polygon (spatial join)
     sec, cond = assign_sections(cond, st.chainage, st.x, st.y, source=inputs.conditions)
+    if "from_chainage" in cond.table and cond.table["from_chainage"].notna().all():
+        for note in sections_off_the_line(cond.table, st.chainage.min(), st.chainage.max()):
+            log.warning("%s: %s", inputs.conditions, note)
     side = _water_side(cond, sec, s.water_side)
     step = s.sample_step or dem.cell
-    if s.half_width <= s.crest_search:
-        raise ParameterError(f"half_width ({s.half_width} m) must exceed crest_search "
-                             f"({s.crest_search} m) so the slopes are in the section")
     offsets = section_offsets(s.half_width, step)
     accuracy_from_settings(s)  # refuse a contradictory accuracy setting before any work
+    too_big = check_chunk_memory(offsets.size, s.chunk_size)
+    if too_big:
+        raise ParameterError(too_big)
     log.info("%d stations over %.0f m, %d samples per section", len(st), line.length,
              offsets.size)
     # sample and interpret the cross-sections chunk by chunk
     slices = _chunks(len(st), s.chunk_size)
     tasks = [_Chunk(dem.path, st.take(sl), side[sl],
-                    _gather_conditions(cond, sec[sl], st.chainage[sl]), offsets, s)
+                    _gather_conditions(cond, sec[sl], st.chainage[sl]), offsets, s, reading)
              for sl in slices]
-    parts: list[dict[str, np.ndarray]] = []
+    got: list[dict[str, np.ndarray] | ChunkFailure] = []
     done = 0
-    for part in _map(_assess_chunk, tasks, s.workers):
-        parts.append(part)
-        done += part["margin"].size
+    for part in _map(Guarded(_assess_chunk, _one_station), tasks, s.workers):
+        got.append(part)
+        done += part_size(part)
         if progress is not None:
             progress(done, len(st))
+    # a chunk that could not be read: its stations no_data, the run incomplete
+    parts = fill_failures(got, source=inputs.dem)
     cols = {k: np.concatenate([p[k] for p in parts]) for k in parts[0]}
     profiles = cols.pop("profiles")
+    read_error = cols.pop(READ_ERROR)
+    failures = failure_runs(st.chainage, read_error)
+    off = off_dem(st.x, st.y, dem.bounds)
+    blank_stations(cols, off)
+    off_note = report_off_dem(st.chainage, off)
     # sections that cross a neighbour within their half-width (needs all stations)
     cols["flags"] = cols["flags"] | np.where(crossing_sections(st, s.half_width),
                                              FLAGS["sections_cross"], 0)
     # margin and status per station, then stretches of one status
     status = classify(cols["margin"], watch_band=s.watch_band)
     table = _station_table(st, side, cond, sec, cols, status)
+    table["flags"] = add_flag(table["flags"].to_numpy(), off, FLAG_OFF_DEM)
+    failed = np.array([e is not None for e in read_error], dtype=bool)
+    table["flags"] = add_flag(table["flags"].to_numpy(), failed, FLAG_READ_FAILED)
     if s.simulate:
         log.info("Monte Carlo over %d terrain models: median ratio empirical/analytic std "
                  "%s", s.simulate, simulation_summary(table))
@@ -230,6 +263,10 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
                            fill_settlement=cond.table["fill_settlement"].to_numpy(float)[sec],
                            unit_cost=s.fill_unit_cost, approach=s.approach)
     meta = _metadata(inputs, s, dem, crs, line)
+    if failures:
+        meta["incomplete"] = incomplete_text(failures)
+    if off_note:
+        meta["off_dem"] = off_note
     # every epoch read on the same stations and sections: change, rate, projected year
     levels = _epoch_levels(inputs, tasks, table, crs, cols["crest_level"], s)
     ep = assess_epochs(levels.years, levels.crest, cols["margin"],

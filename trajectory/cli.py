@@ -8,21 +8,27 @@ from __future__ import annotations
 
 import dataclasses
 import logging
+import signal
 import sys
+import warnings
 from collections.abc import Callable
 from typing import Any
 
 import click
 
 from . import CAUTION, __version__
-from .errors import FileOverwriteError, TrajectoryError
+from .errors import FileOverwriteError, TrajectoryError, TrajectoryWarning
 from .params import Settings, load_run_file
 
 log = logging.getLogger("trajectory")
 
-#: exit codes
-EXIT_INPUT = 2
-EXIT_OVERWRITE = 3
+#: exit codes (README "When something is wrong")
+EXIT_OK = 0
+EXIT_INTERNAL = 1      # an unexpected failure (a bug): run again with --debug and report it
+EXIT_INPUT = 2         # bad input or parameter: nothing written
+EXIT_OVERWRITE = 3     # output exists and --overwrite not given: nothing written
+EXIT_INCOMPLETE = 4    # outputs written, but parts of the line could not be read (no_data)
+EXIT_INTERRUPTED = 130  # Ctrl-C or kill (SIGTERM): previous outputs untouched
 
 
 def _settings_options(fn: Callable) -> Callable:
@@ -48,6 +54,8 @@ def _setup_logging(quiet: bool, debug: bool) -> None:
     logging.basicConfig(level=level, format="%(levelname)s: %(message)s", stream=sys.stderr)
     # GDAL's writer logs every layer at INFO; keep ours readable
     logging.getLogger("pyogrio").setLevel(logging.WARNING)
+    # the library logs each TrajectoryWarning too; show it once, as a log line
+    warnings.simplefilter("ignore", TrajectoryWarning)
 
 
 def _build_settings(config: str | None, given: dict[str, Any]) -> Settings:
@@ -123,6 +131,7 @@ def assess(centreline: str, dem: tuple[str, ...], compare: tuple[str, ...], cond
 
     _setup_logging(quiet, debug)
     bar = _Progress(quiet)
+    previous = _terminate_as_interrupt()
     try:
         settings = _build_settings(config, params)
         dem_path, dem_date, earlier = _epoch_inputs(config, dem, compare)
@@ -136,6 +145,18 @@ def assess(centreline: str, dem: tuple[str, ...], compare: tuple[str, ...], cond
     except TrajectoryError as exc:
         bar.close()
         _fail(exc, debug, EXIT_INPUT)
+    except KeyboardInterrupt as exc:
+        bar.close()
+        _fail(exc, debug, EXIT_INTERRUPTED,
+              "interrupted; no output was replaced (earlier results are intact)")
+    except Exception as exc:  # a bug: one line unless --debug
+        bar.close()
+        _fail(exc, debug, EXIT_INTERNAL,
+              f"unexpected failure ({type(exc).__name__}: {exc}); run again with --debug "
+              "for the traceback and report it")
+    finally:
+        if previous is not None:
+            signal.signal(signal.SIGTERM, previous)
     bar.close()
     s = summary(result)
     log.info("assessed %.0f m: ok %.0f m, watch %.0f m, deficit %.0f m, no_data %.0f m",
@@ -148,6 +169,11 @@ def assess(centreline: str, dem: tuple[str, ...], compare: tuple[str, ...], cond
         if line:
             log.info(line)
     log.info(CAUTION)
+    if result.metadata.get("incomplete"):
+        click.echo("Incomplete: the DEM could not be read for "
+                   f"{result.metadata['incomplete']}; those stations are no_data. "
+                   "Repair the DEM and run again", err=True)
+        sys.exit(EXIT_INCOMPLETE)
 
 
 @main.command()
@@ -173,11 +199,23 @@ def report(results: str, out: str | None, overwrite: bool, quiet: bool, debug: b
     log.info("wrote %s", target)
 
 
-def _fail(exc: Exception, debug: bool, code: int) -> None:
+def _fail(exc: BaseException, debug: bool, code: int, text: str | None = None) -> None:
     if debug:
         raise exc
-    click.echo(f"Error: {exc}", err=True)
+    click.echo(f"Error: {text or exc}", err=True)
     sys.exit(code)
+
+
+def _raise_interrupt(signum: int, frame: Any) -> None:
+    raise KeyboardInterrupt(f"signal {signum}")
+
+
+def _terminate_as_interrupt() -> Any:
+    """Treat SIGTERM like Ctrl-C so temporary files are removed; return the old handler."""
+    try:
+        return signal.signal(signal.SIGTERM, _raise_interrupt)
+    except ValueError:  # not the main thread: leave signals alone
+        return None
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -23,6 +23,7 @@ import shapely
 from pyproj import CRS
 
 from . import hydraulics as hy
+from .checks import condition_plausibility
 from .errors import ConditionsError, InputError, InputFileError
 from .requirement import METHODS, WAVE_METHODS
 
@@ -266,6 +267,8 @@ def validate_conditions(raw: pd.DataFrame, *, spatial: bool = False,
             findings.append(f"{row(r)}, column roughness: {exc}")
     out["roughness"] = gf
     out["revetment"] = rough.to_numpy(object)
+    # values each within its rule but not a design condition (checks.py)
+    findings += condition_plausibility(out, row_base=row_base)
 
     near = text("near_structure").str.lower()
     for i in np.flatnonzero(~near.isin(_YES | _NO).to_numpy()):

@@ -534,7 +534,8 @@ def gamma_berm(
     with np.errstate(divide="ignore", invalid="ignore"):
         r_b = np.where(l_berm > 0.0, bw / l_berm, 0.0)
         ratio = np.abs(db) / x
-    r_db = np.where(ratio < 1.0, 0.5 - 0.5 * np.cos(math.pi * ratio), 1.0)
+    with np.errstate(invalid="ignore"):  # Hm0 = 0 gives 0/0: no berm influence (1 below)
+        r_db = np.where(ratio < 1.0, 0.5 - 0.5 * np.cos(math.pi * ratio), 1.0)
     gb = 1.0 - r_b * (1.0 - r_db)
     gb = np.where(h > 0.0, np.clip(gb, 0.6, 1.0), 1.0)
     return _out(gb)

@@ -15,6 +15,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from .checks import settings_consistency
 from .errors import ParameterError
 
 
@@ -130,9 +131,15 @@ class Settings:
                          unit="stations", min=1, max=100000, group="execution")
     workers: int = _p(1, "Worker processes; 1 = serial, 0 = all cores.",
                       unit="processes", min=0, max=1024, group="execution")
+    # --- reading the terrain model (issue 7: bad input)
+    dem_z_scale: float = _p(0.0, "Metres per DEM unit (0.01 for a DEM in centimetres); "
+                            "0 = from the file (its band scale, else 1).",
+                            unit="m per unit", min=0.0, max=1000.0, group="dem")
 
     def __post_init__(self) -> None:
         problems = validate_values(dataclasses.asdict(self))
+        if not problems:
+            problems = settings_consistency(self)
         if problems:
             raise ParameterError("; ".join(problems))
 

@@ -19,6 +19,7 @@ from pyproj import CRS, Transformer
 from shapely.geometry import LineString, MultiLineString
 from shapely.ops import transform
 
+from .checks import check_file, check_parts, check_simple, is_raster, is_vector
 from .errors import InputError, InputFileError
 from .joins import join_parts
 
@@ -35,9 +36,10 @@ def read_centreline(
     Multi-feature or multi-part lines are joined in order; gaps up to
     ``gap_tolerance`` (m) are closed, larger ones refused.
     """
-    p = Path(path)
-    if not p.exists():
-        raise InputFileError(f"{p}: centreline file not found")
+    p = check_file(path, role="centreline", option="--centreline")
+    if not is_vector(p) and is_raster(p):
+        raise InputFileError(f"{p}: is a raster, not a line layer; give the centreline as a "
+                             "vector file (did you swap --centreline and --dem?)")
     layer = _pick_line_layer(p, layer)
     try:
         df = pyogrio.read_dataframe(p, layer=layer)
@@ -56,8 +58,12 @@ def read_centreline(
         geoms = [transform(tr.transform, g) for g in geoms]
         crs = target_crs
     line = _join_lines(geoms, source=str(p), tolerance=gap_tolerance)
-    if line.length <= 0:
-        raise InputError(f"{p}: the centreline has zero length")
+    if not np.isfinite(line.length):
+        raise InputError(f"{p}: the centreline cannot be placed in the DEM's CRS "
+                         f"({crs.name}); check the CRS assigned to the centreline")
+    if not line.length > 0:
+        raise InputError(f"{p}: the centreline has zero length; digitise the levee line")
+    check_simple(line, source=str(p))
     return line, crs
 
 
@@ -88,7 +94,12 @@ def _join_lines(geoms: list, *, source: str, tolerance: float) -> LineString:
         elif isinstance(g, LineString):
             parts.append(g)
         else:
-            raise InputError(f"{source}: geometry of type {g.geom_type} is not a line")
+            raise InputError(f"{source}: geometry of type {g.geom_type} is not a line; "
+                             "give the centreline as a LineString layer")
+    parts = [LineString(np.asarray(q.coords)[:, :2]) for q in parts if not q.is_empty]
+    if not parts:
+        raise InputError(f"{source}: the line features are empty; digitise the levee line")
+    check_parts(parts, source=source, tolerance=tolerance)
     try:
         line, gaps = join_parts(parts, tolerance=tolerance)
     except InputError as exc:
@@ -121,12 +132,16 @@ class DemInfo:
 def open_dem(path: str | Path) -> DemInfo:
     """Open the terrain model and check it is usable for metric work."""
     p = str(path)
-    if not Path(p).exists() and not p.startswith(("/vsi", "http")):
-        raise InputFileError(f"{p}: DEM file not found")
+    if not p.startswith(("/vsi", "http")):
+        check_file(p, role="DEM", option="--dem")
     try:
         with rasterio.open(p) as ds:
             crs, res, nodata, b = ds.crs, ds.res, ds.nodata, ds.bounds
     except rasterio.errors.RasterioIOError as exc:
+        if is_vector(p):
+            raise InputFileError(f"{p}: is a vector file, not a raster; give the terrain "
+                                 "model as a raster (did you swap --centreline and --dem?)"
+                                 ) from exc
         raise InputFileError(f"{p}: not a raster GDAL can read ({exc})") from exc
     if crs is None:
         raise InputError(f"{p}: the DEM has no coordinate reference system; assign one")

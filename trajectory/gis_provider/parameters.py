@@ -12,6 +12,7 @@ from qgis.core import (
     QgsProcessingParameterBoolean,
     QgsProcessingParameterDefinition,
     QgsProcessingParameterEnum,
+    QgsProcessingParameterFile,
     QgsProcessingParameterNumber,
 )
 
@@ -37,6 +38,9 @@ def definition(row: dict[str, Any]) -> QgsProcessingParameterDefinition:
                                        defaultValue=choices.index(default))
     elif isinstance(default, bool):
         p = QgsProcessingParameterBoolean(name, label(row), defaultValue=default)
+    elif isinstance(default, str):
+        # text parameters of the table are optional file paths ("" = not given)
+        p = QgsProcessingParameterFile(name, label(row), optional=True)
     else:
         kind = (QgsProcessingParameterNumber.Integer if isinstance(default, int)
                 else QgsProcessingParameterNumber.Double)
@@ -73,6 +77,8 @@ def settings_from_parameters(algorithm, parameters: dict, context) -> Settings:
             values[name] = row["choices"][algorithm.parameterAsEnum(parameters, name, context)]
         elif isinstance(default, bool):
             values[name] = algorithm.parameterAsBoolean(parameters, name, context)
+        elif isinstance(default, str):
+            values[name] = algorithm.parameterAsFile(parameters, name, context) or ""
         elif isinstance(default, int):
             values[name] = algorithm.parameterAsInt(parameters, name, context)
         else:

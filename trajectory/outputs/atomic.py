@@ -3,11 +3,15 @@
 from __future__ import annotations
 
 import contextlib
+import logging
 import os
+import re
 from collections.abc import Iterator
 from pathlib import Path
 
 from ..errors import FileOverwriteError
+
+log = logging.getLogger(__name__)
 
 
 def refuse_overwrite(path: str | Path, *, overwrite: bool) -> None:
@@ -27,6 +31,7 @@ def atomic_path(path: str | Path, *, overwrite: bool) -> Iterator[Path]:
     final = Path(path)
     refuse_overwrite(final, overwrite=overwrite)
     final.parent.mkdir(parents=True, exist_ok=True)
+    remove_stale_partials(final)
     tmp = final.with_name(f".{final.stem}.{os.getpid()}.partial{final.suffix}")
     if tmp.exists():
         tmp.unlink()
@@ -36,3 +41,35 @@ def atomic_path(path: str | Path, *, overwrite: bool) -> Iterator[Path]:
     finally:
         if tmp.exists():
             tmp.unlink()
+
+
+def _alive(pid: int) -> bool:
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except PermissionError:  # exists, owned by someone else
+        return True
+    return True
+
+
+def remove_stale_partials(path: str | Path) -> list[Path]:
+    """Remove temporary files ``.{stem}.{pid}.partial{suffix}`` left by killed runs.
+
+    A file is stale when its process no longer runs (or is this process);
+    the temporary of a run still going on is left alone. Returns the removed paths.
+    """
+    final = Path(path)
+    pattern = re.compile(rf"^\.{re.escape(final.stem)}\.(\d+)\.partial"
+                         rf"{re.escape(final.suffix)}(-journal|-wal|-shm)?$")
+    removed = []
+    if not final.parent.is_dir():
+        return removed
+    for p in final.parent.iterdir():
+        m = pattern.match(p.name)
+        if m and (int(m.group(1)) == os.getpid() or not _alive(int(m.group(1)))):
+            with contextlib.suppress(FileNotFoundError):
+                p.unlink()
+                removed.append(p)
+                log.info("removed %s, left by an interrupted run", p.name)
+    return removed

@@ -20,6 +20,8 @@ def write_deficit_table(result, path: str | Path, *, overwrite: bool = False) ->
     with atomic_path(path, overwrite=overwrite) as tmp:
         with open(tmp, "w", encoding="utf-8", newline="") as fh:
             fh.write(f"# {CAUTION}\n")
+            if result.metadata.get("incomplete"):  # a partial result must say so (issue 7)
+                fh.write(f"# INCOMPLETE, DEM unreadable for: {result.metadata['incomplete']}\n")
             df.to_csv(fh, index=False, float_format="%.4f")
     return Path(path)
 

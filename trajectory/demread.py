@@ -1,0 +1,173 @@
+"""How terrain values become levels in metres: fill values and vertical units.
+
+Suppliers deliver DEMs whose nodata value is unset although they hold fill
+values (-9999, the float32 minimum -3.4e38, ...), and integer DEMs in
+centimetres. :func:`reading_rules` inspects a decimated window around the
+line once, refuses what cannot be read as metres, and returns a small
+picklable :class:`DemReading`; :func:`with_rules` applies it to every windowed
+read, so the sampling code stays unaware of it.
+"""
+
+from __future__ import annotations
+
+import logging
+import warnings
+from dataclasses import dataclass
+
+import numpy as np
+import rasterio
+from rasterio.windows import Window, from_bounds
+from shapely.geometry import LineString
+
+from .errors import InputError, TrajectoryWarning
+
+log = logging.getLogger(__name__)
+
+#: fill values common in delivered DEMs (common practice: ESRI/ASCII grid -9999,
+#: int16 -32767/-32768, float32 lowest value); used only where nodata is unset
+COMMON_FILL_VALUES: tuple[float, ...] = (-9999.0, -99999.0, -32767.0, -32768.0,
+                                          float(np.finfo(np.float32).min))
+#: beyond this magnitude a value is a fill value, never a level
+FILL_MAGNITUDE = 1e30
+#: plausible terrain levels in metres (from memory: Dead Sea shore about -430 m,
+#: Everest about 8849 m), with room for local datums
+LEVEL_RANGE = (-500.0, 9000.0)
+#: side (cells) of the decimated probe read
+PROBE_CELLS = 1024
+
+
+@dataclass(frozen=True)
+class DemReading:
+    """Rules turning raw DEM values into levels (m); picklable for worker processes."""
+
+    fill_values: tuple[float, ...] = ()  # treated as nodata (only where nodata is unset)
+    scale: float = 1.0                   # level = raw * scale + offset
+    offset: float = 0.0
+
+    @property
+    def trivial(self) -> bool:
+        return not self.fill_values and self.scale == 1.0 and self.offset == 0.0
+
+
+def reading_rules(path: str, line: LineString, *, margin: float,
+                  z_scale: float = 0.0) -> DemReading:
+    """Inspect the DEM around ``line`` and decide how to read its values.
+
+    Parameters
+    ----------
+    path
+        The DEM.
+    line
+        Centreline in the DEM's CRS; only a decimated window around it is read.
+    margin
+        Buffer (m) around the line's bounds (the section half-width).
+    z_scale
+        Metres per DEM unit given by the user (0.01 for centimetres); 0 means
+        from the file: its band scale/offset, else 1.
+
+    Raises
+    ------
+    InputError
+        Integer levels without a declared scale, or levels implausible in metres.
+    """
+    with rasterio.open(path) as ds:
+        dtype = np.dtype(ds.dtypes[0])
+        nodata = ds.nodata
+        f_scale = float(ds.scales[0] or 1.0)
+        f_offset = float(ds.offsets[0] or 0.0)
+        try:
+            raw = _probe(ds, line, margin)
+        except (rasterio.errors.RasterioError, OSError) as exc:
+            # a damaged part is reported chunk by chunk later; judge by the data type only
+            log.debug("probe read of %s failed: %s", path, exc)
+            raw = np.ma.masked_all((1, 1))
+    declared = (f_scale, f_offset) != (1.0, 0.0)
+    if z_scale > 0:
+        scale, offset = float(z_scale), 0.0
+    else:
+        scale, offset = (f_scale, f_offset)
+    fills: tuple[float, ...] = ()
+    if nodata is None:
+        fills = COMMON_FILL_VALUES
+        data = raw.compressed() if np.ma.isMaskedArray(raw) else raw.ravel()
+        hit = _is_fill(data, fills)
+        if hit.any():
+            found = ", ".join(f"{v:g}" for v in np.unique(data[hit])[:3])
+            msg = (f"{path}: the DEM declares no nodata value but holds fill values ({found}); "
+                   "they are treated as nodata. Set the nodata value in the file to be sure")
+            log.warning(msg)
+            warnings.warn(msg, TrajectoryWarning, stacklevel=2)
+    levels = np.asarray(raw, dtype=float)
+    if np.ma.isMaskedArray(raw):
+        levels = np.ma.filled(raw.astype(float), np.nan)
+    levels = levels[np.isfinite(levels) & ~_is_fill(levels, fills)]
+    if np.issubdtype(dtype, np.integer) and not declared and z_scale <= 0:
+        span = f", {levels.min():g} to {levels.max():g} near the line" if levels.size else ""
+        raise InputError(
+            f"{path}: the DEM holds whole numbers ({dtype.name}{span}) and declares no "
+            "vertical scale; 1-unit steps cannot measure a crest. If the values are "
+            "centimetres pass --dem-z-scale 0.01 (millimetres: 0.001)")
+    if levels.size == 0:
+        return DemReading(fill_values=fills, scale=scale, offset=offset)
+    lo, hi = float(levels.min()), float(levels.max())
+    zlo, zhi = lo * scale + offset, hi * scale + offset
+    if zlo < LEVEL_RANGE[0] or zhi > LEVEL_RANGE[1]:
+        raise InputError(
+            f"{path}: DEM levels near the line run from {zlo:g} to {zhi:g} m, implausible for "
+            "terrain in metres; if the values are centimetres pass --dem-z-scale 0.01, or set "
+            "the DEM's nodata value if these are fill values")
+    return DemReading(fill_values=fills, scale=scale, offset=offset)
+
+
+def _is_fill(v: np.ndarray, fills: tuple[float, ...]) -> np.ndarray:
+    if not fills:
+        return np.zeros(np.shape(v), dtype=bool)
+    v = np.asarray(v, dtype=float)
+    with np.errstate(invalid="ignore"):
+        return np.isin(v, np.asarray(fills, dtype=float)) | (np.abs(v) > FILL_MAGNITUDE)
+
+
+def _probe(ds: rasterio.io.DatasetReader, line: LineString, margin: float) -> np.ndarray:
+    """A decimated read of the window around the line (never the whole of a huge DEM)."""
+    x0, y0, x1, y1 = line.bounds
+    b = ds.bounds
+    x0, y0 = max(x0 - margin, b.left), max(y0 - margin, b.bottom)
+    x1, y1 = min(x1 + margin, b.right), min(y1 + margin, b.top)
+    if x1 <= x0 or y1 <= y0:
+        return np.ma.masked_all((1, 1))
+    win = from_bounds(x0, y0, x1, y1, transform=ds.transform).round_offsets().round_lengths()
+    win = win.intersection(Window(0, 0, ds.width, ds.height))
+    h, w = max(int(win.height), 1), max(int(win.width), 1)
+    k = max(h, w) / PROBE_CELLS
+    shape = (max(int(h / k), 1), max(int(w / k), 1)) if k > 1 else (h, w)
+    band = ds.read(1, window=win, out_shape=shape, masked=True)
+    if ds.nodata is not None:  # decimated reads of mosaics do not always carry the mask
+        data = np.ma.getdata(band)
+        nod = np.isnan(data) if np.isnan(ds.nodata) else data == ds.nodata
+        band = np.ma.MaskedArray(data, mask=np.ma.getmaskarray(band) | nod)
+    return band
+
+
+class _RuledDataset:
+    """The few attributes of a rasterio dataset that sampling uses, with the rules applied."""
+
+    def __init__(self, ds: rasterio.io.DatasetReader, rules: DemReading):
+        self._ds = ds
+        self._rules = rules
+        self.transform = ds.transform
+        self.width = ds.width
+        self.height = ds.height
+
+    def read(self, *args, **kwargs) -> np.ndarray:
+        band = self._ds.read(*args, **kwargs)
+        r = self._rules
+        mask = np.ma.getmaskarray(band) | _is_fill(np.ma.getdata(band), r.fill_values)
+        vals = np.ma.getdata(band).astype(np.float64) * r.scale + r.offset
+        return np.ma.MaskedArray(vals, mask=mask)
+
+
+def with_rules(ds: rasterio.io.DatasetReader, rules: DemReading | None):
+    """``ds`` itself when no rule applies, else a view reading levels by ``rules``."""
+    if rules is None or rules.trivial:
+        return ds
+    return _RuledDataset(ds, rules)
