@@ -10,10 +10,9 @@ from __future__ import annotations
 
 import logging
 import os
+import threading
 from collections.abc import Callable, Iterator
-from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field
-from datetime import datetime, timezone
 from pathlib import Path
 from typing import Any
 
@@ -21,11 +20,13 @@ import numpy as np
 import pandas as pd
 import rasterio
 from pyproj import CRS
-from shapely.geometry import LineString
+from shapely.geometry import LineString, MultiLineString
 
 from . import CAUTION, __version__
 from .chainage import Stations, make_stations
 from .errors import InputError, ParameterError
+from .lines import Centreline, read_centrelines, read_line_conditions, stack_stretches
+from .execution import EXECUTION_FIELDS, make_executor, pinned_file_time, run_time
 from .params import Settings
 from .profile import flag_text, read_profiles
 from .requirement import StationConditions, required_level
@@ -49,6 +50,7 @@ class RunInputs:
     dem: str
     conditions: str
     layer: str | None = None
+    line_id_field: str | None = None   # several lines in one file, told apart by this field
 
 
 @dataclass
@@ -62,6 +64,7 @@ class Result:
     offsets: np.ndarray                # sample offsets (m, + towards the outer side)
     profiles: np.ndarray               # stations x offsets, float32, oriented outer-positive
     metadata: dict[str, Any] = field(default_factory=dict)
+    lines: dict[str, LineString] = field(default_factory=dict)  # line id -> line
 
 
 # ---------------------------------------------------------------- chunks
@@ -75,21 +78,29 @@ class _Chunk:
     settings: Settings
 
 
-_OPEN: dict[str, rasterio.io.DatasetReader] = {}
+_OPEN = threading.local()
 
 
 def _dataset(path: str) -> rasterio.io.DatasetReader:
-    """One open handle per process and DEM (workers reuse theirs across chunks)."""
-    ds = _OPEN.get(path)
+    """One open handle per process, thread and DEM (workers reuse theirs across chunks).
+
+    A forked worker never reuses its parent's handles, and threads (a Dask worker
+    runs several) never share one: GDAL datasets are not thread-safe.
+    """
+    if getattr(_OPEN, "pid", None) != os.getpid():
+        _OPEN.pid, _OPEN.handles = os.getpid(), {}
+    ds = _OPEN.handles.get(path)
     if ds is None or ds.closed:
-        ds = _OPEN[path] = rasterio.open(path)
+        ds = _OPEN.handles[path] = rasterio.open(path)
     return ds
 
 
 def _assess_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
     """Sample, read and judge the profiles of one chunk of stations."""
     s = chunk.settings
-    z = sample_profiles(_dataset(chunk.dem_path), chunk.stations, chunk.offsets)
+    # GDAL's block cache is bounded per process, so memory does not grow with the line
+    with rasterio.Env(GDAL_CACHEMAX=int(s.dem_cache * 2**20)):
+        z = sample_profiles(_dataset(chunk.dem_path), chunk.stations, chunk.offsets)
     # orient so that positive offsets point to the water (outer) side
     z = np.where((chunk.side > 0)[:, None], z, z[:, ::-1])
     prof = read_profiles(z, chunk.offsets, object_width=s.object_width,
@@ -109,14 +120,11 @@ def _chunks(n: int, size: int) -> list[slice]:
     return [slice(i, min(i + size, n)) for i in range(0, n, size)]
 
 
-def _map(fn: Callable, items: list, workers: int) -> Iterator:
-    """Ordered map, serial or on a process pool (same results either way)."""
-    if workers == 1 or len(items) <= 1:
-        yield from map(fn, items)
-        return
-    n = (os.cpu_count() or 1) if workers == 0 else workers
-    with ProcessPoolExecutor(max_workers=n) as pool:
-        yield from pool.map(fn, items)
+def _map(fn: Callable, items: list, settings: Settings) -> Iterator:
+    """Ordered map on the run's executor: serial, process pool or Dask (same results)."""
+    with make_executor(workers=settings.workers, scheduler=settings.scheduler,
+                       n_tasks=len(items)) as ex:
+        yield from ex.map(fn, items)
 
 
 # ---------------------------------------------------------------- pipeline
@@ -132,54 +140,98 @@ def _water_side(cond: Conditions, idx: np.ndarray, default: str) -> np.ndarray:
     return np.where(ws == "left", 1, -1)
 
 
+@dataclass(frozen=True)
+class _LinePlan:
+    """One line of a run: its stations and their conditions (chunks never span lines)."""
+
+    line_id: str
+    line: LineString
+    cond: Conditions
+    stations: Stations
+    sec: np.ndarray
+    side: np.ndarray
+
+
+def _read_lines(inputs: RunInputs, dem: DemInfo) -> tuple[list[Centreline], CRS]:
+    if inputs.line_id_field:
+        return read_centrelines(inputs.centreline, id_field=inputs.line_id_field,
+                                layer=inputs.layer, target_crs=dem.crs)
+    line, crs = read_centreline(inputs.centreline, layer=inputs.layer, target_crs=dem.crs)
+    return [Centreline("", line)], crs
+
+
 def run(inputs: RunInputs, settings: Settings | None = None, *,
         progress: ProgressCallback | None = None) -> Result:
-    """Assess one levee line; return the result without writing anything."""
+    """Assess the levee line(s); return the result without writing anything."""
     s = settings or Settings()
     # read the terrain model first: its CRS is the working CRS
     dem = open_dem(inputs.dem)
-    # read the centreline, reprojected to the DEM's CRS, joined into one line
-    line, crs = read_centreline(inputs.centreline, layer=inputs.layer, target_crs=dem.crs)
-    if not line_bounds_overlap(line, dem, s.half_width):
-        raise InputError(f"{inputs.centreline}: the centreline does not overlap the DEM "
-                         f"{inputs.dem}; check that both cover the same area and CRS")
-    # read and validate the section conditions
-    cond = read_conditions(inputs.conditions)
-    # stations at fixed chainage with smoothed normals
-    st = make_stations(line, spacing=s.spacing, start_chainage=s.start_chainage,
-                       reverse=s.reverse, smooth_length=s.smooth_length)
-    check_conditions_cover(cond, st.chainage, source=inputs.conditions)
-    sec = cond.lookup(st.chainage)
-    side = _water_side(cond, sec, s.water_side)
+    # read the centreline(s), reprojected to the DEM's CRS, each joined into one line
+    lines, crs = _read_lines(inputs, dem)
+    for c in lines:
+        if not line_bounds_overlap(c.line, dem, s.half_width):
+            name = f" (line {c.line_id!r})" if c.line_id else ""
+            raise InputError(f"{inputs.centreline}{name}: the centreline does not overlap the "
+                             f"DEM {inputs.dem}; check that both cover the same area and CRS")
+    # read and validate the section conditions (per line with a line_id column)
+    if inputs.line_id_field:
+        conds = read_line_conditions(inputs.conditions, [c.line_id for c in lines])
+    else:
+        conds = {"": read_conditions(inputs.conditions)}
     step = s.sample_step or dem.cell
     if s.half_width <= s.crest_search:
         raise ParameterError(f"half_width ({s.half_width} m) must exceed crest_search "
                              f"({s.crest_search} m) so the slopes are in the section")
     offsets = section_offsets(s.half_width, step)
-    log.info("%d stations over %.0f m, %d samples per section", len(st), line.length,
-             offsets.size)
-    # sample and interpret the cross-sections chunk by chunk
-    slices = _chunks(len(st), s.chunk_size)
-    tasks = [_Chunk(dem.path, st.take(sl), side[sl], _gather_conditions(cond, sec[sl]),
-                    offsets, s) for sl in slices]
+    # stations at fixed chainage with smoothed normals, each line its own chainage
+    plans = [_plan_line(c, conds[c.line_id], s, source=inputs.conditions) for c in lines]
+    total = sum(len(pl.stations) for pl in plans)
+    log.info("%d stations over %.0f m (%d line(s)), %d samples per section", total,
+             sum(pl.line.length for pl in plans), len(plans), offsets.size)
+    # sample and interpret the cross-sections chunk by chunk, all lines on one executor
+    tasks = [_Chunk(dem.path, pl.stations.take(sl), pl.side[sl],
+                    _gather_conditions(pl.cond, pl.sec[sl]), offsets, s)
+             for pl in plans for sl in _chunks(len(pl.stations), s.chunk_size)]
     parts: list[dict[str, np.ndarray]] = []
     done = 0
-    for part in _map(_assess_chunk, tasks, s.workers):
+    for part in _map(_assess_chunk, tasks, s):
         parts.append(part)
         done += part["margin"].size
         if progress is not None:
-            progress(done, len(st))
+            progress(done, total)
     cols = {k: np.concatenate([p[k] for p in parts]) for k in parts[0]}
     profiles = cols.pop("profiles")
-    # margin and status per station, then stretches of one status
+    # margin and status per station, then stretches of one status, line by line
     status = classify(cols["margin"], watch_band=s.watch_band)
-    table = _station_table(st, side, cond, sec, cols, status)
-    end = s.start_chainage + line.length
-    stretches = merge_stretches(st.chainage, status, cols["margin"],
-                                start=s.start_chainage, end=end)
+    tables, stretches, first = [], [], 0
+    for pl in plans:
+        sl = slice(first, first + len(pl.stations))
+        line_cols = {k: v[sl] for k, v in cols.items()}
+        t = _station_table(pl.stations, pl.side, pl.cond, pl.sec, line_cols, status[sl])
+        t.insert(0, "line_id", pl.line_id)
+        tables.append(t)
+        stretches.append(merge_stretches(pl.stations.chainage, status[sl], line_cols["margin"],
+                                         start=s.start_chainage,
+                                         end=s.start_chainage + pl.line.length))
+        first = sl.stop
+    table = pd.concat(tables, ignore_index=True) if len(tables) > 1 else tables[0]
+    line = lines[0].line if len(lines) == 1 else MultiLineString([c.line for c in lines])
     meta = _metadata(inputs, s, dem, crs, line)
-    return Result(stations=table, stretches=stretches, line=line, crs=crs,
-                  offsets=offsets, profiles=profiles, metadata=meta)
+    if inputs.line_id_field:
+        meta["line_count"] = len(lines)
+    return Result(stations=table, stretches=stack_stretches(stretches, [len(p.stations)
+                                                                       for p in plans]),
+                  line=line, crs=crs, offsets=offsets, profiles=profiles, metadata=meta,
+                  lines={c.line_id: c.line for c in lines})
+
+
+def _plan_line(c: Centreline, cond: Conditions, s: Settings, *, source: str) -> _LinePlan:
+    st = make_stations(c.line, spacing=s.spacing, start_chainage=s.start_chainage,
+                       reverse=s.reverse, smooth_length=s.smooth_length)
+    check_conditions_cover(cond, st.chainage,
+                           source=f"{source} (line {c.line_id!r})" if c.line_id else source)
+    sec = cond.lookup(st.chainage)
+    return _LinePlan(c.line_id, c.line, cond, st, sec, _water_side(cond, sec, s.water_side))
 
 
 def _station_table(st: Stations, side: np.ndarray, cond: Conditions, sec: np.ndarray,
@@ -230,7 +282,7 @@ def _metadata(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS,
              "conditions": inputs.conditions}
     meta: dict[str, Any] = {
         "software": f"trajectory {__version__}",
-        "run_time": datetime.now(timezone.utc).isoformat(timespec="seconds"),
+        "run_time": run_time().isoformat(timespec="seconds"),
         "caution": CAUTION,
         "crs": crs.to_string(),
         "dem_cell_size": dem.cell,
@@ -244,7 +296,10 @@ def _metadata(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS,
     if inputs.layer:
         meta["input_layer"] = inputs.layer
     for k, v in s.__dict__.items():
-        meta[f"param_{k}"] = v
+        if k not in EXECUTION_FIELDS:  # how a run is executed does not change its results
+            meta[f"param_{k}"] = v
+    if inputs.line_id_field:
+        meta["input_line_id_field"] = inputs.line_id_field
     return meta
 
 
@@ -259,7 +314,9 @@ def assess(inputs: RunInputs, out: str | Path, settings: Settings | None = None,
     for p in (out, table):
         refuse_overwrite(p, overwrite=overwrite)
     result = run(inputs, settings, progress=progress)
-    write_geopackage(result, out, overwrite=overwrite)
+    # the GeoPackage's own time stamps are the run time, so reruns compare byte for byte
+    with pinned_file_time(result.metadata["run_time"]):
+        write_geopackage(result, out, overwrite=overwrite)
     write_deficit_table(result, table, overwrite=overwrite)
     log.info("wrote %s and %s", out, table)
     return result

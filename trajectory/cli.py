@@ -88,6 +88,8 @@ def main() -> None:
 @click.option("--conditions", required=True, help="Section conditions table (CSV).")
 @click.option("--out", required=True, help="Output GeoPackage.")
 @click.option("--layer", default=None, help="Line layer of the centreline file.")
+@click.option("--line-id-field", default=None,
+              help="Field telling several centrelines apart; each line gets its own chainage.")
 @click.option("--table", default=None, help="Deficit table (CSV); default: next to --out.")
 @click.option("--config", default=None, help="TOML run file with parameters.")
 @click.option("--overwrite", is_flag=True, help="Replace existing outputs.")
@@ -95,7 +97,7 @@ def main() -> None:
 @click.option("--debug", is_flag=True, help="Show tracebacks and debug logs.")
 @_settings_options
 def assess(centreline: str, dem: str, conditions: str, out: str, layer: str | None,
-           table: str | None, config: str | None, overwrite: bool, quiet: bool,
+           line_id_field: str | None, table: str | None, config: str | None, overwrite: bool, quiet: bool,
            debug: bool, **params: Any) -> None:
     """Assess a levee line and write a GeoPackage and a deficit table."""
     from .assess import RunInputs, summary
@@ -105,7 +107,7 @@ def assess(centreline: str, dem: str, conditions: str, out: str, layer: str | No
     bar = _Progress(quiet)
     try:
         settings = _build_settings(config, params)
-        result = run_assess(RunInputs(centreline, dem, conditions, layer), out, settings,
+        result = run_assess(RunInputs(centreline, dem, conditions, layer, line_id_field), out, settings,
                             overwrite=overwrite, table=table, progress=bar)
     except FileOverwriteError as exc:
         bar.close()

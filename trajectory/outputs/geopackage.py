@@ -21,6 +21,11 @@ def _frame(data: dict, layer: str, geometry, crs) -> gpd.GeoDataFrame:
     return gpd.GeoDataFrame({c: data[c] for c in cols}, geometry=geometry, crs=crs)
 
 
+def _line_ids(result) -> np.ndarray:
+    t = result.stations
+    return t["line_id"].to_numpy(object) if "line_id" in t else np.full(len(t), "", object)
+
+
 def station_layer(result) -> gpd.GeoDataFrame:
     t = result.stations
     geom = shapely.points(t["x"].to_numpy(), t["y"].to_numpy())
@@ -43,32 +48,36 @@ def crest_line_layer(result) -> gpd.GeoDataFrame:
     """The measured crest as 3-D lines, one per run of readable stations."""
     t = result.stations
     ok = np.isfinite(t["crest_level"].to_numpy())
-    brk = np.flatnonzero(np.diff(ok.astype(int)) != 0) + 1
+    lid = _line_ids(result)
+    brk = np.flatnonzero((np.diff(ok.astype(int)) != 0) | (lid[1:] != lid[:-1])) + 1
     runs = [r for r in np.split(np.arange(len(t)), brk) if r.size >= 2 and ok[r[0]]]
-    geoms, fr, to = [], [], []
+    geoms, fr, to, ids = [], [], [], []
     for r in runs:
+        ids.append(lid[r[0]])
         xyz = np.stack([t["crest_x"].to_numpy()[r], t["crest_y"].to_numpy()[r],
                         t["crest_level"].to_numpy()[r]], 1)
         geoms.append(shapely.linestrings(xyz))
         fr.append(t["chainage"].iloc[r[0]])
         to.append(t["chainage"].iloc[r[-1]])
-    return _frame({"from_chainage": fr, "to_chainage": to}, "crest_line", geoms, result.crs)
+    return _frame({"line_id": ids, "from_chainage": fr, "to_chainage": to}, "crest_line",
+                  geoms, result.crs)
 
 
 def stretch_layer(result, *, start: float, reverse: bool) -> gpd.GeoDataFrame:
     s = result.stretches
-    line = result.line
-    length = line.length
+    lines = result.lines or {"": result.line}
+    ids = _line_ids(result)[s.first] if len(s.first) else np.array([], object)
 
-    def along(c):
+    def along(c, length):
         d = c - start
         return length - d if reverse else d
 
     geoms = []
-    for a, b in zip(s.from_chainage, s.to_chainage):
-        lo, hi = sorted((along(a), along(b)))
+    for a, b, lid in zip(s.from_chainage, s.to_chainage, ids):
+        line = lines[lid]
+        lo, hi = sorted((along(a, line.length), along(b, line.length)))
         geoms.append(substring(line, float(lo), float(hi)))
-    data = {"from_chainage": s.from_chainage, "to_chainage": s.to_chainage,
+    data = {"line_id": ids, "from_chainage": s.from_chainage, "to_chainage": s.to_chainage,
             "length": s.length, "status": s.status, "worst_margin": s.worst_margin,
             "worst_chainage": s.worst_chainage, "stations": s.last - s.first + 1}
     return _frame(data, "stretches", geoms, result.crs)

@@ -94,6 +94,12 @@ LAYERS: dict[str, tuple[str | None, tuple[Field, ...]]] = {
     "run_metadata": (None, METADATA_FIELDS),
 }
 
+# --- several lines in one run: the spatial layers lead with the line's id
+LINE_ID_FIELD = _f("line_id", "str", "",
+                   "Id of the centreline (its --line-id-field value; empty for a single line)")
+for _name in ("stations", "cross_sections", "crest_line", "stretches"):
+    LAYERS[_name] = (LAYERS[_name][0], (LINE_ID_FIELD, *LAYERS[_name][1]))
+
 
 def field_names(layer: str) -> list[str]:
     return [f.name for f in LAYERS[layer][1]]
