@@ -26,7 +26,7 @@ from . import CAUTION, __version__
 from .chainage import Stations, make_stations
 from .errors import InputError, ParameterError
 from .lines import Centreline, read_centrelines, read_line_conditions, stack_stretches
-from .execution import EXECUTION_FIELDS, make_executor, pinned_file_time, run_time
+from .execution import EXECUTION_FIELDS, make_executor, geopackage_write_options, run_time
 from .params import Settings
 from .profile import flag_text, read_profiles
 from .requirement import StationConditions, required_level
@@ -314,8 +314,8 @@ def assess(inputs: RunInputs, out: str | Path, settings: Settings | None = None,
     for p in (out, table):
         refuse_overwrite(p, overwrite=overwrite)
     result = run(inputs, settings, progress=progress)
-    # the GeoPackage's own time stamps are the run time, so reruns compare byte for byte
-    with pinned_file_time(result.metadata["run_time"]):
+    # time stamps pinned to the run time (reruns compare byte for byte), no per-step sync
+    with geopackage_write_options(result.metadata["run_time"]):
         write_geopackage(result, out, overwrite=overwrite)
     write_deficit_table(result, table, overwrite=overwrite)
     log.info("wrote %s and %s", out, table)

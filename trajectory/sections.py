@@ -60,26 +60,27 @@ def bilinear_window(grid: np.ndarray, col: np.ndarray, row: np.ndarray, *, col0:
     j0 = j0.astype(np.int64)
     i0 = i0.astype(np.int64)
     inside = (col >= 0) & (col <= width) & (row >= 0) & (row <= height)
-    # neighbours beyond the dataset's edge repeat the edge cell (as GDAL does)
-    ja = np.clip(j0, 0, width - 1) - col0
-    jb = np.clip(j0 + 1, 0, width - 1) - col0
-    ia = np.clip(i0, 0, height - 1) - row0
-    ib = np.clip(i0 + 1, 0, height - 1) - row0
     gh, gw = grid.shape
-    # points outside the dataset have no value; keep their indices in the window
-    ja, jb = np.clip(ja, 0, gw - 1), np.clip(jb, 0, gw - 1)
-    ia, ib = np.clip(ia, 0, gh - 1), np.clip(ib, 0, gh - 1)
+    # window indices; a neighbour beyond the dataset's edge repeats the edge cell (as
+    # GDAL does), and the window holds every cell a point inside the dataset needs
+    ja = np.clip(j0 - col0, 0, gw - 1)
+    jb = np.clip(j0 + (1 - col0), 0, gw - 1)
+    ia = np.clip(i0 - row0, 0, gh - 1) * gw
+    ib = np.clip(i0 + (1 - row0), 0, gh - 1) * gw
+    flat = grid.ravel()
     acc = np.zeros(col.shape)
     wsum = np.zeros(col.shape)
-    for ii, jj, wt in ((ia, ja, (1 - fv) * (1 - fu)), (ia, jb, (1 - fv) * fu),
-                       (ib, ja, fv * (1 - fu)), (ib, jb, fv * fu)):
-        z = grid[ii, jj].astype(np.float64)
+    gu, gv = 1.0 - fu, 1.0 - fv
+    for idx, wt in ((ia + ja, gv * gu), (ia + jb, gv * fu), (ib + ja, fv * gu),
+                    (ib + jb, fv * fu)):
+        z = flat[idx].astype(np.float64)
         ok = _valid(z, nodata)
         acc += np.where(ok, z * wt, 0.0)
         wsum += np.where(ok, wt, 0.0)
-    ni = np.clip(np.clip(np.floor(row).astype(np.int64), 0, height - 1) - row0, 0, gh - 1)
-    nj = np.clip(np.clip(np.floor(col).astype(np.int64), 0, width - 1) - col0, 0, gw - 1)
-    good = inside & _valid(grid[ni, nj].astype(np.float64), nodata) & (wsum > 0)
+    # the nearest cell decides whether the point has a value at all
+    ni = np.where(fv >= 0.5, ib, ia)
+    nj = np.where(fu >= 0.5, jb, ja)
+    good = inside & _valid(flat[ni + nj].astype(np.float64), nodata) & (wsum > 0)
     out = np.full(col.shape, np.nan)
     out[good] = acc[good] / wsum[good]
     return out
@@ -148,40 +149,40 @@ def station_cell_ranges(cols: np.ndarray, rows: np.ndarray, *, width: int, heigh
     return ext.astype(np.int64)
 
 
-def _area(e: np.ndarray) -> int:
-    return int(max(e[1] - e[0], 0) * max(e[3] - e[2], 0))
-
-
 def window_groups(ext: np.ndarray, *, overhead: int = READ_OVERHEAD_CELLS
-                  ) -> list[tuple[int, int, np.ndarray]]:
+                  ) -> list[tuple[int, int, tuple[int, int, int, int]]]:
     """Split consecutive stations into groups that share one DEM window.
 
     Going along chainage, a station joins the current group while the grown
     window costs fewer cells than reading its own window plus ``overhead``; on a
     curved or diagonal line this keeps the windows close to the cells the
     sections cover instead of one large bounding box per chunk.
-    Returns ``(first, stop, [c0, c1, r0, r1])`` per group.
+    Returns ``(first, stop, (c0, c1, r0, r1))`` per group.
     """
-    groups: list[tuple[int, int, np.ndarray]] = []
-    n = len(ext)
-    if n == 0:
+    groups: list[tuple[int, int, tuple[int, int, int, int]]] = []
+    rows = [tuple(e) for e in np.asarray(ext, dtype=np.int64).tolist()]
+    if not rows:
         return groups
-    first, cur = 0, ext[0].copy()
-    for i in range(1, n):
-        e = ext[i]
-        if _area(e) == 0:
+
+    def area(e: tuple[int, ...]) -> int:
+        return max(e[1] - e[0], 0) * max(e[3] - e[2], 0)
+
+    first, cur = 0, rows[0]
+    for i in range(1, len(rows)):
+        e = rows[i]
+        if area(e) == 0:
             merged = cur
-        elif _area(cur) == 0:
-            merged = e.copy()
+        elif area(cur) == 0:
+            merged = e
         else:
-            merged = np.array([min(cur[0], e[0]), max(cur[1], e[1]),
-                               min(cur[2], e[2]), max(cur[3], e[3])])
-        if _area(merged) <= _area(cur) + _area(e) + overhead:
+            merged = (min(cur[0], e[0]), max(cur[1], e[1]), min(cur[2], e[2]),
+                      max(cur[3], e[3]))
+        if area(merged) <= area(cur) + area(e) + overhead:
             cur = merged
         else:
             groups.append((first, i, cur))
-            first, cur = i, e.copy()
-    groups.append((first, n, cur))
+            first, cur = i, e
+    groups.append((first, len(rows), cur))
     return groups
 
 

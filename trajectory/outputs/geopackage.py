@@ -9,8 +9,8 @@ import numpy as np
 import pandas as pd
 import pyogrio
 import shapely
-from shapely.ops import substring
 
+from ..chainage import line_substrings
 from ..status import station_extents
 from .atomic import atomic_path
 from .schema import LAYERS, field_names
@@ -72,11 +72,12 @@ def stretch_layer(result, *, start: float, reverse: bool) -> gpd.GeoDataFrame:
         d = c - start
         return length - d if reverse else d
 
-    geoms = []
-    for a, b, lid in zip(s.from_chainage, s.to_chainage, ids):
-        line = lines[lid]
-        lo, hi = sorted((along(a, line.length), along(b, line.length)))
-        geoms.append(substring(line, float(lo), float(hi)))
+    geoms = np.empty(len(ids), dtype=object)
+    for lid, line in lines.items():
+        k = np.flatnonzero(ids == lid)
+        a = along(s.from_chainage[k], line.length)
+        b = along(s.to_chainage[k], line.length)
+        geoms[k] = line_substrings(line, np.minimum(a, b), np.maximum(a, b))
     data = {"line_id": ids, "from_chainage": s.from_chainage, "to_chainage": s.to_chainage,
             "length": s.length, "status": s.status, "worst_margin": s.worst_margin,
             "worst_chainage": s.worst_chainage, "stations": s.last - s.first + 1}
