@@ -3,5 +3,5 @@
 set -euo pipefail
 ROOT="$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)"
 cd "$ROOT"
-bash scripts/setup_env.sh test
+bash scripts/setup_env.sh test,distributed  # Dask LocalCluster tests
 exec "$ROOT/.venv/bin/python" -m pytest "$@"

@@ -134,6 +134,10 @@ def _gather_conditions(cond: Conditions, idx: np.ndarray) -> StationConditions:
     return StationConditions(**cols)
 
 
+def _take(cond: StationConditions, sl: slice) -> StationConditions:
+    return StationConditions(**{f: getattr(cond, f)[sl] for f in cond.__dataclass_fields__})
+
+
 def _water_side(cond: Conditions, idx: np.ndarray, default: str) -> np.ndarray:
     ws = cond.table["water_side"].to_numpy(object)[idx]
     ws = np.where(ws == "", default, ws)
@@ -189,9 +193,9 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     log.info("%d stations over %.0f m (%d line(s)), %d samples per section", total,
              sum(pl.line.length for pl in plans), len(plans), offsets.size)
     # sample and interpret the cross-sections chunk by chunk, all lines on one executor
-    tasks = [_Chunk(dem.path, pl.stations.take(sl), pl.side[sl],
-                    _gather_conditions(pl.cond, pl.sec[sl]), offsets, s)
-             for pl in plans for sl in _chunks(len(pl.stations), s.chunk_size)]
+    tasks = [_Chunk(dem.path, pl.stations.take(sl), pl.side[sl], _take(cond, sl), offsets, s)
+             for pl in plans for cond in [_gather_conditions(pl.cond, pl.sec)]
+             for sl in _chunks(len(pl.stations), s.chunk_size)]
     parts: list[dict[str, np.ndarray]] = []
     done = 0
     for part in _map(_assess_chunk, tasks, s):

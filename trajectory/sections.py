@@ -124,7 +124,7 @@ def read_window(ds: rasterio.io.DatasetReader, x: np.ndarray, y: np.ndarray,
 
 #: a separate window costs about as much as reading this many more cells (per-read
 #: overhead); neighbouring stations share a window while that is cheaper
-READ_OVERHEAD_CELLS = 20_000
+READ_OVERHEAD_CELLS = 5_000
 
 
 def station_cell_ranges(cols: np.ndarray, rows: np.ndarray, *, width: int, height: int
