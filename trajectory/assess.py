@@ -25,8 +25,8 @@ from shapely.geometry import LineString, MultiLineString
 from . import CAUTION, __version__
 from .chainage import Stations, make_stations
 from .errors import InputError, ParameterError
+from .execution import EXECUTION_FIELDS, geopackage_write_options, make_executor, run_time
 from .lines import Centreline, read_centrelines, read_line_conditions, stack_stretches
-from .execution import EXECUTION_FIELDS, make_executor, geopackage_write_options, run_time
 from .params import Settings
 from .profile import flag_text, read_profiles
 from .requirement import StationConditions, required_level

@@ -97,8 +97,8 @@ def main() -> None:
 @click.option("--debug", is_flag=True, help="Show tracebacks and debug logs.")
 @_settings_options
 def assess(centreline: str, dem: str, conditions: str, out: str, layer: str | None,
-           line_id_field: str | None, table: str | None, config: str | None, overwrite: bool, quiet: bool,
-           debug: bool, **params: Any) -> None:
+           line_id_field: str | None, table: str | None, config: str | None, overwrite: bool,
+           quiet: bool, debug: bool, **params: Any) -> None:
     """Assess a levee line and write a GeoPackage and a deficit table."""
     from .assess import RunInputs, summary
     from .assess import assess as run_assess
@@ -107,8 +107,8 @@ def assess(centreline: str, dem: str, conditions: str, out: str, layer: str | No
     bar = _Progress(quiet)
     try:
         settings = _build_settings(config, params)
-        result = run_assess(RunInputs(centreline, dem, conditions, layer, line_id_field), out, settings,
-                            overwrite=overwrite, table=table, progress=bar)
+        inputs = RunInputs(centreline, dem, conditions, layer, line_id_field)
+        result = run_assess(inputs, out, settings, overwrite=overwrite, table=table, progress=bar)
     except FileOverwriteError as exc:
         bar.close()
         _fail(exc, debug, EXIT_OVERWRITE)

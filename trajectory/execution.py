@@ -16,8 +16,8 @@ import sys
 import threading
 from collections import deque
 from collections.abc import Callable, Iterable, Iterator
-from contextlib import contextmanager
 from concurrent.futures import Future, ProcessPoolExecutor
+from contextlib import contextmanager
 from datetime import datetime, timezone
 from typing import Any, Protocol
 

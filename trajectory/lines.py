@@ -21,8 +21,8 @@ from shapely.geometry import LineString
 from shapely.ops import transform
 
 from .errors import ConditionsError, InputError, InputFileError
-from .status import Stretches
 from .sources import Conditions, _join_lines, _pick_line_layer, read_conditions, validate_conditions
+from .status import Stretches
 
 log = logging.getLogger(__name__)
 
@@ -147,7 +147,8 @@ def stack_stretches(parts: list[Stretches], counts: list[int]) -> Stretches:
     base = np.concatenate([[0], np.cumsum(counts)[:-1]]).astype(int)
     cols = {f: np.concatenate([getattr(p, f) for p in parts])
             for f in Stretches.__dataclass_fields__}
-    shift = np.concatenate([np.full(len(p.first), b, dtype=int) for p, b in zip(parts, base)])
+    shift = np.concatenate([np.full(len(p.first), b, dtype=int)
+                            for p, b in zip(parts, base, strict=True)])
     cols["first"] = cols["first"] + shift
     cols["last"] = cols["last"] + shift
     return Stretches(**cols)
