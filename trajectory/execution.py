@@ -128,15 +128,17 @@ def _bounded_map(submit: Callable[[Any], Any], items: Iterable[Any], window: int
 
 
 def _pool_context() -> multiprocessing.context.BaseContext:
-    """Start method for the pool: fork where it is safe and cheap, else the default.
+    """Start method for the pool: fork where it is safe and cheap, else a fresh server.
 
     Forking copies the already imported modules (fast start); it is used on
-    Linux when this process runs no other Python thread. Elsewhere the
-    platform's default start method is used.
+    Linux when this process runs no other Python thread (forking a threaded
+    process can deadlock). Otherwise workers come from a fork server where the
+    platform has one, else they are spawned.
     """
+    methods = multiprocessing.get_all_start_methods()
     if sys.platform.startswith("linux") and threading.active_count() == 1:
         return multiprocessing.get_context("fork")
-    return multiprocessing.get_context()
+    return multiprocessing.get_context("forkserver" if "forkserver" in methods else "spawn")
 
 
 class ProcessExecutor:
