@@ -61,8 +61,9 @@ def _interpolate(xy: np.ndarray, cum: np.ndarray, distance: np.ndarray) -> np.nd
 def interpolate_points(line: LineString, distance: np.ndarray) -> np.ndarray:
     """Points (n x 2) at ``distance`` along ``line`` from its first vertex.
 
-    The same as :func:`shapely.line_interpolate_point` (clipped to the line's
-    ends) but by one binary search over the vertices' cumulative distances, so
+    The same as :func:`shapely.line_interpolate_point` for distances from 0
+    (distances are clipped to the line, not counted from its end when negative)
+    but by one binary search over the vertices' cumulative distances, so
     it stays fast on lines of many thousand vertices.
     """
     return _interpolate(*_measure(line), distance)
