@@ -3,7 +3,7 @@
 set -euo pipefail
 ROOT="$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)"
 cd "$ROOT"
-bash scripts/setup_env.sh test
+bash scripts/setup_env.sh test,distributed  # Dask LocalCluster tests
 # the desktop GIS's Python side (.venv-qgis) for the provider tests: where QGIS is installed,
 # and always in CI (there a missing QGIS fails the run instead of skipping its tests)
 if [ "${CI:-}" = "true" ] || /usr/bin/python3 -c "import qgis.core" >/dev/null 2>&1; then

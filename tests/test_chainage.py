@@ -77,3 +77,25 @@ def test_projected_length_against_geodesic_length():
     lon, lat = to_geo.transform(*np.asarray(line.coords).T)
     geod_len = Geod(ellps="WGS84").line_length(lon, lat)
     assert line.length == pytest.approx(geod_len, rel=1e-3)
+
+
+def test_fast_interpolation_and_substrings_match_shapely():
+    # reference: shapely's line_interpolate_point and ops.substring on a long meander
+    import shapely
+    from shapely.ops import substring
+
+    from trajectory.chainage import interpolate_points, line_substrings
+    from trajectory.synthetic import make_long_centreline
+
+    line = make_long_centreline(4000.0)
+    rng = np.random.default_rng(3)
+    # (shapely counts negative distances from the end; the helper clips them, so only
+    # distances from 0 are compared)
+    d = np.concatenate([[0.0, 10.0, line.length], rng.uniform(0.0, line.length + 5.0, 300)])
+    ref = shapely.get_coordinates(shapely.line_interpolate_point(line, d))
+    np.testing.assert_allclose(interpolate_points(line, d), ref, atol=1e-7)
+    ab = np.sort(rng.uniform(0.0, line.length, (100, 2)), axis=1)
+    for (a, b), got in zip(ab, line_substrings(line, ab[:, 0], ab[:, 1]), strict=True):
+        want = substring(line, a, b)
+        assert abs(got.length - want.length) < 1e-6
+        assert got.hausdorff_distance(want) < 1e-6

@@ -11,10 +11,9 @@ from __future__ import annotations
 import dataclasses
 import logging
 import os
+import threading
 from collections.abc import Callable, Iterator
-from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field
-from datetime import datetime, timezone
 from pathlib import Path
 from typing import Any
 
@@ -22,7 +21,7 @@ import numpy as np
 import pandas as pd
 import rasterio
 from pyproj import CRS
-from shapely.geometry import LineString
+from shapely.geometry import LineString, MultiLineString
 
 from . import CAUTION, __version__
 from .chainage import Stations, crossing_sections, make_stations
@@ -36,6 +35,8 @@ from .faults import (
     blank_stations, failure_runs, fill_failures, incomplete_text, off_dem, part_size,
     report_off_dem,
 )
+from .execution import EXECUTION_FIELDS, geopackage_write_options, make_executor, run_time
+from .lines import Centreline, read_centrelines, read_line_conditions, stack_stretches
 from .params import Settings
 from .profile import FLAGS, flag_text, read_profiles
 from .profile_conditions import outer_characteristic_slope
@@ -69,6 +70,7 @@ class RunInputs:
     dem_date: str | None = None        # survey date of `dem` (needed with earlier epochs)
     earlier: tuple[Epoch, ...] = ()    # earlier surveys, oldest first
     conditions_layer: str | None = None
+    line_id_field: str | None = None   # several lines in one file, told apart by this field
 
 
 @dataclass
@@ -84,6 +86,7 @@ class Result:
     metadata: dict[str, Any] = field(default_factory=dict)
     epochs: EpochLevels | None = None  # crest level per survey epoch (oldest first)
     options: pd.DataFrame | None = None  # remedies per deficit stretch (remedies.py)
+    lines: dict[str, LineString] = field(default_factory=dict)  # line id -> line
 
 
 # ---------------------------------------------------------------- chunks
@@ -98,22 +101,31 @@ class _Chunk:
     dem_reading: DemReading | None = None
 
 
-_OPEN: dict[str, rasterio.io.DatasetReader] = {}
+_OPEN = threading.local()
 
 
 def _dataset(path: str) -> rasterio.io.DatasetReader:
-    """One open handle per process and DEM (workers reuse theirs across chunks)."""
-    ds = _OPEN.get(path)
+    """One open handle per process, thread and DEM (workers reuse theirs across chunks).
+
+    A forked worker never reuses its parent's handles, and threads (a Dask worker
+    runs several) never share one: GDAL datasets are not thread-safe.
+    """
+    if getattr(_OPEN, "pid", None) != os.getpid():
+        _OPEN.pid, _OPEN.handles = os.getpid(), {}
+    ds = _OPEN.handles.get(path)
     if ds is None or ds.closed:
-        ds = _OPEN[path] = rasterio.open(path)
+        ds = _OPEN.handles[path] = rasterio.open(path)
     return ds
 
 
 def _assess_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
     """Sample, read and judge the profiles of one chunk of stations."""
     s = chunk.settings
-    ds = with_rules(_dataset(chunk.dem_path), chunk.dem_reading)
-    z = sample_profiles(ds, chunk.stations, chunk.offsets)
+    # GDAL's block cache is bounded per process, so memory does not grow with the line;
+    # the reading rules turn DEM values into levels (fill values, vertical unit)
+    with rasterio.Env(GDAL_CACHEMAX=int(s.dem_cache * 2**20)):
+        ds = with_rules(_dataset(chunk.dem_path), chunk.dem_reading)
+        z = sample_profiles(ds, chunk.stations, chunk.offsets)
     # orient so that positive offsets point to the water (outer) side
     z = np.where((chunk.side > 0)[:, None], z, z[:, ::-1])
     prof = read_profiles(z, chunk.offsets, object_width=s.object_width,
@@ -148,24 +160,19 @@ def _assess_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
 def _one_station(chunk: _Chunk, i: int) -> _Chunk:
     """The chunk of station ``i`` alone (to narrow down a read failure)."""
     sl = slice(i, i + 1)
-    c = chunk.conditions
     return dataclasses.replace(chunk, stations=chunk.stations.take(sl), side=chunk.side[sl],
-                               conditions=type(c)(**{f: getattr(c, f)[sl]
-                                                     for f in c.__dataclass_fields__}))
+                               conditions=_take(chunk.conditions, sl))
 
 
 def _chunks(n: int, size: int) -> list[slice]:
     return [slice(i, min(i + size, n)) for i in range(0, n, size)]
 
 
-def _map(fn: Callable, items: list, workers: int) -> Iterator:
-    """Ordered map, serial or on a process pool (same results either way)."""
-    if workers == 1 or len(items) <= 1:
-        yield from map(fn, items)
-        return
-    n = (os.cpu_count() or 1) if workers == 0 else workers
-    with ProcessPoolExecutor(max_workers=n) as pool:
-        yield from pool.map(fn, items)
+def _map(fn: Callable, items: list, settings: Settings) -> Iterator:
+    """Ordered map on the run's executor: serial, process pool or Dask (same results)."""
+    with make_executor(workers=settings.workers, scheduler=settings.scheduler,
+                       n_tasks=len(items)) as ex:
+        yield from ex.map(fn, items)
 
 
 # ---------------------------------------------------------------- pipeline
@@ -174,61 +181,115 @@ def _gather_conditions(cond: Conditions, idx: np.ndarray,
     return station_conditions(cond.table, idx, chainage)
 
 
+def _take(cond: StationConditions, sl: slice) -> StationConditions:
+    """The conditions of stations ``sl`` (optional fields that are None stay None)."""
+    return StationConditions(**{f: None if getattr(cond, f) is None else getattr(cond, f)[sl]
+                                for f in cond.__dataclass_fields__})
+
+
 def _water_side(cond: Conditions, idx: np.ndarray, default: str) -> np.ndarray:
     ws = cond.table["water_side"].to_numpy(object)[idx]
     ws = np.where(ws == "", default, ws)
     return np.where(ws == "left", 1, -1)
 
 
+@dataclass(frozen=True)
+class _LinePlan:
+    """One line of a run: its stations and their conditions (chunks never span lines)."""
+
+    line_id: str
+    line: LineString
+    cond: Conditions
+    stations: Stations
+    sec: np.ndarray
+    side: np.ndarray
+
+
+def _read_lines(inputs: RunInputs, dem: DemInfo,
+                s: Settings) -> tuple[list[Centreline], CRS]:
+    if inputs.line_id_field:
+        return read_centrelines(inputs.centreline, id_field=inputs.line_id_field,
+                                layer=inputs.layer, target_crs=dem.crs)
+    line, crs = read_centreline(inputs.centreline, layer=inputs.layer, target_crs=dem.crs,
+                                gap_tolerance=s.gap_tolerance)
+    return [Centreline("", line)], crs
+
+
 def run(inputs: RunInputs, settings: Settings | None = None, *,
         progress: ProgressCallback | None = None) -> Result:
-    """Assess one levee line; return the result without writing anything."""
+    """Assess the levee line(s); return the result without writing anything."""
     s = settings or Settings()
     # read the terrain model first: its CRS is the working CRS
     dem = open_dem(inputs.dem)
     # earlier surveys: dates in order, terrain models in the same CRS
     _check_epochs(inputs, dem)
-    # read the centreline, reprojected to the DEM's CRS, joined into one line
-    line, crs = read_centreline(inputs.centreline, layer=inputs.layer, target_crs=dem.crs,
-                                gap_tolerance=s.gap_tolerance)
-    if not line_bounds_overlap(line, dem, s.half_width):
-        raise InputError(f"{inputs.centreline}: the centreline does not overlap the DEM "
-                         f"{inputs.dem}; check that both cover the same area and CRS")
+    # read the centreline(s), reprojected to the DEM's CRS, each joined into one line
+    lines, crs = _read_lines(inputs, dem, s)
+    for c in lines:
+        if not line_bounds_overlap(c.line, dem, s.half_width):
+            name = f" (line {c.line_id!r})" if c.line_id else ""
+            raise InputError(f"{inputs.centreline}{name}: the centreline does not overlap the "
+                             f"DEM {inputs.dem}; check that both cover the same area and CRS")
+    all_lines = lines[0].line if len(lines) == 1 else MultiLineString([c.line for c in lines])
     # how DEM values become levels (fill values, vertical unit), from a window near the line
-    reading = reading_rules(dem.path, line, margin=s.half_width, z_scale=s.dem_z_scale)
-    # read and validate the section conditions
-    cond = read_conditions(inputs.conditions, layer=inputs.conditions_layer,
-                           target_crs=dem.crs)
-    # stations at fixed chainage with smoothed normals
-    listed = read_station_chainages(s.stations_file) if s.stations_file else None
-    st = make_stations(line, spacing=s.spacing, start_chainage=s.start_chainage,
-                       reverse=s.reverse, smooth_length=s.smooth_length, chainages=listed)
-    # the section of each station: by chainage range, or by polygon (spatial join)
-    sec, cond = assign_sections(cond, st.chainage, st.x, st.y, source=inputs.conditions)
-    if "from_chainage" in cond.table and cond.table["from_chainage"].notna().all():
-        for note in sections_off_the_line(cond.table, st.chainage.min(), st.chainage.max()):
-            log.warning("%s: %s", inputs.conditions, note)
-    side = _water_side(cond, sec, s.water_side)
+    reading = reading_rules(dem.path, all_lines, margin=s.half_width, z_scale=s.dem_z_scale)
+    # read and validate the section conditions (per line with a line_id column)
+    if inputs.line_id_field:
+        conds = read_line_conditions(inputs.conditions, [c.line_id for c in lines])
+    else:
+        conds = {"": read_conditions(inputs.conditions, layer=inputs.conditions_layer,
+                                     target_crs=dem.crs)}
     step = s.sample_step or dem.cell
     offsets = section_offsets(s.half_width, step)
     accuracy_from_settings(s)  # refuse a contradictory accuracy setting before any work
     too_big = check_chunk_memory(offsets.size, s.chunk_size)
     if too_big:
         raise ParameterError(too_big)
-    log.info("%d stations over %.0f m, %d samples per section", len(st), line.length,
-             offsets.size)
+    # stations at fixed chainage with smoothed normals, each line its own chainage
+    plans = [_plan_line(c, conds[c.line_id], s, source=inputs.conditions) for c in lines]
+    total = sum(len(pl.stations) for pl in plans)
+    log.info("%d stations over %.0f m (%d line(s)), %d samples per section", total,
+             sum(pl.line.length for pl in plans), len(plans), offsets.size)
+    # each line assessed in turn: chunks, profiles, requirement, status, options, epochs
+    results, done = [], 0
+    for pl in plans:
+        def line_progress(d: int, n: int, base: int = done) -> None:
+            if progress is not None:
+                progress(base + d, total)
+        results.append(_run_line(inputs, s, dem, crs, pl, offsets, reading, line_progress))
+        done += len(pl.stations)
+    result = _combine(results, [pl.line_id for pl in plans])
+    if inputs.line_id_field:
+        result.metadata["line_count"] = len(lines)
+    return result
+
+
+@dataclass(frozen=True)
+class _LineRun:
+    """The result of one line before the lines are put together."""
+
+    line_id: str
+    line: LineString
+    result: Result
+    stations: int
+
+
+def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LinePlan,
+              offsets: np.ndarray, reading: DemReading,
+              progress: ProgressCallback) -> _LineRun:
+    """Assess the stations of one line (chunks never span lines)."""
+    st, side, cond, sec, line = pl.stations, pl.side, pl.cond, pl.sec, pl.line
     # sample and interpret the cross-sections chunk by chunk
     slices = _chunks(len(st), s.chunk_size)
-    tasks = [_Chunk(dem.path, st.take(sl), side[sl],
-                    _gather_conditions(cond, sec[sl], st.chainage[sl]), offsets, s, reading)
+    gathered = _gather_conditions(cond, sec, st.chainage)
+    tasks = [_Chunk(dem.path, st.take(sl), side[sl], _take(gathered, sl), offsets, s, reading)
              for sl in slices]
     got: list[dict[str, np.ndarray] | ChunkFailure] = []
     done = 0
-    for part in _map(Guarded(_assess_chunk, _one_station), tasks, s.workers):
+    for part in _map(Guarded(_assess_chunk, _one_station), tasks, s):
         got.append(part)
         done += part_size(part)
-        if progress is not None:
-            progress(done, len(st))
+        progress(done, len(st))
     # a chunk that could not be read: its stations no_data, the run incomplete
     parts = fill_failures(got, source=inputs.dem)
     cols = {k: np.concatenate([p[k] for p in parts]) for k in parts[0]}
@@ -244,6 +305,7 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     # margin and status per station, then stretches of one status
     status = classify(cols["margin"], watch_band=s.watch_band)
     table = _station_table(st, side, cond, sec, cols, status)
+    table.insert(0, "line_id", pl.line_id)
     table["flags"] = add_flag(table["flags"].to_numpy(), off, FLAG_OFF_DEM)
     failed = np.array([e is not None for e in read_error], dtype=bool)
     table["flags"] = add_flag(table["flags"].to_numpy(), failed, FLAG_READ_FAILED)
@@ -256,12 +318,12 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
                                 min_length=s.min_stretch_length)
     # remedies for every deficit stretch: raise, outer berm, combined
     lo, hi = station_extents(st.chainage, s.start_chainage, end)
-    options = plan_options(table, _gather_conditions(cond, sec, st.chainage), stretches,
-                           extents=hi - lo,
+    options = plan_options(table, gathered, stretches, extents=hi - lo,
                            watch_band=s.watch_band, include_watch=s.remedy_watch,
                            berm_above_swl=s.berm_above_swl,
                            fill_settlement=cond.table["fill_settlement"].to_numpy(float)[sec],
                            unit_cost=s.fill_unit_cost, approach=s.approach)
+    options.insert(0, "line_id", pl.line_id)
     meta = _metadata(inputs, s, dem, crs, line)
     if failures:
         meta["incomplete"] = incomplete_text(failures)
@@ -274,9 +336,35 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     for k, v in ep.columns().items():
         table[k] = v
     meta.update(_epoch_metadata(levels, inputs))
-    return Result(stations=table, stretches=stretches, line=line, crs=crs,
-                  offsets=offsets, profiles=profiles, metadata=meta, epochs=levels,
-                  options=options)
+    res = Result(stations=table, stretches=stretches, line=line, crs=crs, offsets=offsets,
+                 profiles=profiles, metadata=meta, epochs=levels, options=options,
+                 lines={pl.line_id: line})
+    return _LineRun(pl.line_id, line, res, len(st))
+
+
+def _combine(runs: list[_LineRun], ids: list[str]) -> Result:
+    """Several lines' results as one (stations in line order, each its own chainage)."""
+    if len(runs) == 1:
+        return runs[0].result
+    rs = [r.result for r in runs]
+    meta = dict(rs[0].metadata)
+    for key in ("incomplete", "off_dem"):
+        notes = [f"line {r.line_id!r}: {r.result.metadata[key]}" for r in runs
+                 if key in r.result.metadata]
+        meta.pop(key, None)
+        if notes:
+            meta[key] = "; ".join(notes)
+    meta["line_length"] = round(sum(r.line.length for r in runs), 3)
+    levels = rs[0].epochs
+    if levels is not None:
+        levels = dataclasses.replace(levels, crest=np.vstack([r.epochs.crest for r in rs]))
+    return Result(
+        stations=pd.concat([r.stations for r in rs], ignore_index=True),
+        stretches=stack_stretches([r.stretches for r in rs], [r.stations for r in runs]),
+        line=MultiLineString([r.line for r in runs]), crs=rs[0].crs, offsets=rs[0].offsets,
+        profiles=np.vstack([r.profiles for r in rs]), metadata=meta, epochs=levels,
+        options=pd.concat([r.options for r in rs], ignore_index=True),
+        lines={r.line_id: r.line for r in runs})
 
 
 def _survey_sigma(table: pd.DataFrame, s: Settings) -> np.ndarray:
@@ -318,7 +406,7 @@ def _epoch_levels(inputs: RunInputs, tasks: list[_Chunk], table: pd.DataFrame, c
         log.info("reading survey %s (%s)", e.label, e.path)
         again = [dataclasses.replace(t, dem_path=e.path) for t in tasks]
         columns.append(np.concatenate([p["crest_level"] for p in
-                                       _map(_assess_chunk, again, s.workers)]))
+                                       _map(_assess_chunk, again, s)]))
     labels = (*(e.label for e in inputs.earlier), inputs.dem_date or "")
     years = (check_order(labels, [*(e.path for e in inputs.earlier), inputs.dem])
              if inputs.earlier else np.array([np.nan]))
@@ -336,6 +424,19 @@ def _epoch_metadata(levels: EpochLevels, inputs: RunInputs) -> dict[str, Any]:
         if Path(e.path).is_file():
             meta[f"sha256_epoch_{e.label}"] = file_checksum(e.path)
     return meta
+
+
+def _plan_line(c: Centreline, cond: Conditions, s: Settings, *, source: str) -> _LinePlan:
+    listed = read_station_chainages(s.stations_file) if s.stations_file else None
+    st = make_stations(c.line, spacing=s.spacing, start_chainage=s.start_chainage,
+                       reverse=s.reverse, smooth_length=s.smooth_length, chainages=listed)
+    where = f"{source} (line {c.line_id!r})" if c.line_id else source
+    # the section of each station: by chainage range, or by polygon (spatial join)
+    sec, cond = assign_sections(cond, st.chainage, st.x, st.y, source=where)
+    if "from_chainage" in cond.table and cond.table["from_chainage"].notna().all():
+        for note in sections_off_the_line(cond.table, st.chainage.min(), st.chainage.max()):
+            log.warning("%s: %s", where, note)
+    return _LinePlan(c.line_id, c.line, cond, st, sec, _water_side(cond, sec, s.water_side))
 
 
 def _station_table(st: Stations, side: np.ndarray, cond: Conditions, sec: np.ndarray,
@@ -394,7 +495,7 @@ def _metadata(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS,
              "conditions": inputs.conditions}
     meta: dict[str, Any] = {
         "software": f"trajectory {__version__}",
-        "run_time": datetime.now(timezone.utc).isoformat(timespec="seconds"),
+        "run_time": run_time().isoformat(timespec="seconds"),
         "caution": CAUTION,
         "crs": crs.to_string(),
         "dem_cell_size": dem.cell,
@@ -412,7 +513,10 @@ def _metadata(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS,
     meta["crs_centreline"] = _source_crs(inputs.centreline, inputs.layer)
     meta["crs_conditions"] = "none (table; chainage along the centreline)"
     for k, v in s.__dict__.items():
-        meta[f"param_{k}"] = v
+        if k not in EXECUTION_FIELDS:  # how a run is executed does not change its results
+            meta[f"param_{k}"] = v
+    if inputs.line_id_field:
+        meta["input_line_id_field"] = inputs.line_id_field
     return meta
 
 
@@ -442,7 +546,9 @@ def assess(inputs: RunInputs, out: str | Path, settings: Settings | None = None,
     for p in (out, table, *extra, *([Path(report)] if report else [])):
         refuse_overwrite(p, overwrite=overwrite)
     result = run(inputs, settings, progress=progress)
-    write_geopackage(result, out, overwrite=overwrite)
+    # time stamps pinned to the run time (reruns compare byte for byte), no per-step sync
+    with geopackage_write_options(result.metadata["run_time"]):
+        write_geopackage(result, out, overwrite=overwrite)
     write_deficit_table(result, table, overwrite=overwrite)
     write_stretch_table(result, stretch_table_path(table), overwrite=overwrite)
     write_result_workbook(result, table.with_suffix(".xlsx"), overwrite=overwrite)

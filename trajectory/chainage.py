@@ -61,6 +61,48 @@ def distances_for_chainages(chainage: np.ndarray, length: float, *, start_chaina
                          f"from {start_chainage:g} to {start_chainage + length:g} m: {shown}")
     rel = np.clip(rel, 0.0, length)
     return length - rel if reverse else rel
+def _measure(line: LineString) -> tuple[np.ndarray, np.ndarray]:
+    """Vertices (n x 2) and their cumulative distance along ``line``."""
+    xy = shapely.get_coordinates(line)
+    return xy, np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(xy, axis=0).T))])
+
+
+def _interpolate(xy: np.ndarray, cum: np.ndarray, distance: np.ndarray) -> np.ndarray:
+    seg = np.diff(cum)
+    d = np.clip(np.asarray(distance, dtype=float), 0.0, cum[-1])
+    i = np.clip(np.searchsorted(cum, d, side="right") - 1, 0, seg.size - 1)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        f = np.where(seg[i] > 0, (d - cum[i]) / seg[i], 0.0)
+    return xy[i] + f[:, None] * (xy[i + 1] - xy[i])
+
+
+def interpolate_points(line: LineString, distance: np.ndarray) -> np.ndarray:
+    """Points (n x 2) at ``distance`` along ``line`` from its first vertex.
+
+    The same as :func:`shapely.line_interpolate_point` for distances from 0
+    (distances are clipped to the line, not counted from its end when negative)
+    but by one binary search over the vertices' cumulative distances, so
+    it stays fast on lines of many thousand vertices.
+    """
+    return _interpolate(*_measure(line), distance)
+
+
+def line_substrings(line: LineString, start: np.ndarray, end: np.ndarray) -> list[LineString]:
+    """The parts of ``line`` between distances ``start[i]`` and ``end[i]`` (start <= end).
+
+    Like :func:`shapely.ops.substring` for increasing distances, by a binary
+    search over the vertices instead of a walk, so a long line cut into many
+    stretches stays fast. Distances are clipped to the line.
+    """
+    xy, cum = _measure(line)
+    lo = np.clip(np.asarray(start, dtype=float), 0.0, cum[-1])
+    hi = np.clip(np.asarray(end, dtype=float), 0.0, cum[-1])
+    a = _interpolate(xy, cum, lo)
+    b = _interpolate(xy, cum, hi)
+    first = np.searchsorted(cum, lo, side="right")
+    stop = np.searchsorted(cum, hi, side="left")
+    return [LineString(np.vstack([a[k:k + 1], xy[first[k]:stop[k]], b[k:k + 1]]))
+            for k in range(lo.size)]
 
 
 def make_stations(
@@ -81,10 +123,10 @@ def make_stations(
         along = distances_for_chainages(chainages, length, start_chainage=start_chainage,
                                         reverse=reverse)
     chain = start_chainage + (length - along if reverse else along)
-    pts = shapely.get_coordinates(shapely.line_interpolate_point(line, along))
+    pts = interpolate_points(line, along)
     h = max(smooth_length / 2.0, 1e-3 * spacing, 1e-6)
-    a = shapely.get_coordinates(shapely.line_interpolate_point(line, np.clip(along - h, 0, length)))
-    b = shapely.get_coordinates(shapely.line_interpolate_point(line, np.clip(along + h, 0, length)))
+    a = interpolate_points(line, np.clip(along - h, 0, length))
+    b = interpolate_points(line, np.clip(along + h, 0, length))
     t = b - a
     t /= np.hypot(t[:, 0], t[:, 1])[:, None]
     return Stations(chainage=chain, along=along, x=pts[:, 0], y=pts[:, 1],

@@ -112,6 +112,8 @@ def main() -> None:
               help="Layer of the conditions file, when it has several.")
 @click.option("--out", required=True, help="Output GeoPackage.")
 @click.option("--layer", default=None, help="Line layer of the centreline file.")
+@click.option("--line-id-field", default=None,
+              help="Field telling several centrelines apart; each line gets its own chainage.")
 @click.option("--table", default=None, help="Deficit table (CSV); default: next to --out.")
 @click.option("--config", default=None, help="TOML run file with parameters.")
 @click.option("--report", "report_path", default=None,
@@ -121,9 +123,10 @@ def main() -> None:
 @click.option("--debug", is_flag=True, help="Show tracebacks and debug logs.")
 @_settings_options
 def assess(centreline: str, dem: tuple[str, ...], compare: tuple[str, ...], conditions: str,
-           conditions_layer: str | None, out: str, layer: str | None, table: str | None,
-           config: str | None, report_path: str | None, overwrite: bool, quiet: bool,
-           debug: bool, **params: Any) -> None:
+           conditions_layer: str | None, out: str, layer: str | None,
+           line_id_field: str | None, table: str | None, config: str | None,
+           report_path: str | None, overwrite: bool, quiet: bool, debug: bool,
+           **params: Any) -> None:
     """Assess a levee line and write a GeoPackage and a deficit table."""
     from .assess import RunInputs, summary
     from .assess import assess as run_assess
@@ -135,10 +138,11 @@ def assess(centreline: str, dem: tuple[str, ...], compare: tuple[str, ...], cond
     try:
         settings = _build_settings(config, params)
         dem_path, dem_date, earlier = _epoch_inputs(config, dem, compare)
-        result = run_assess(RunInputs(centreline, dem_path, conditions, layer, dem_date=dem_date,
-                                      earlier=earlier, conditions_layer=conditions_layer),
-                            out, settings, overwrite=overwrite, table=table, progress=bar,
-                            report=report_path)
+        inputs = RunInputs(centreline, dem_path, conditions, layer, dem_date=dem_date,
+                           earlier=earlier, conditions_layer=conditions_layer,
+                           line_id_field=line_id_field)
+        result = run_assess(inputs, out, settings, overwrite=overwrite, table=table,
+                            progress=bar, report=report_path)
     except FileOverwriteError as exc:
         bar.close()
         _fail(exc, debug, EXIT_OVERWRITE)

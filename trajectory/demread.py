@@ -16,6 +16,7 @@ from dataclasses import dataclass
 
 import numpy as np
 import rasterio
+from rasterio.enums import MaskFlags
 from rasterio.windows import Window, from_bounds
 from shapely.geometry import LineString
 
@@ -157,6 +158,10 @@ class _RuledDataset:
         self.transform = ds.transform
         self.width = ds.width
         self.height = ds.height
+        self.res = ds.res
+        # the rules make the mask more than the nodata value: sampling reads it masked
+        self.nodata = None
+        self.mask_flag_enums = ([MaskFlags.per_dataset],)
 
     def read(self, *args, **kwargs) -> np.ndarray:
         band = self._ds.read(*args, **kwargs)

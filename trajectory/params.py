@@ -129,12 +129,19 @@ class Settings:
     # --- execution
     chunk_size: int = _p(64, "Stations processed together in one chunk (bounds memory).",
                          unit="stations", min=1, max=100000, group="execution")
-    workers: int = _p(1, "Worker processes; 1 = serial, 0 = all cores.",
+    workers: int = _p(0, "Worker processes; 0 = auto (all cores for long runs, serial for "
+                      "short ones), 1 = serial.",
                       unit="processes", min=0, max=1024, group="execution")
     # --- reading the terrain model (issue 7: bad input)
     dem_z_scale: float = _p(0.0, "Metres per DEM unit (0.01 for a DEM in centimetres); "
                             "0 = from the file (its band scale, else 1).",
                             unit="m per unit", min=0.0, max=1000.0, group="dem")
+    # --- execution at scale: distributed runs and bounded memory (results do not change)
+    scheduler: str = _p("", "Address of a Dask scheduler (e.g. tcp://host:8786) to run the "
+                        "chunks on; needs the extra trajectory[distributed]. Empty: local.",
+                        group="execution")
+    dem_cache: float = _p(64.0, "GDAL block cache per process (bounds memory on long lines).",
+                          unit="MB", min=1.0, max=65536.0, group="execution")
 
     def __post_init__(self) -> None:
         problems = validate_values(dataclasses.asdict(self))

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 import rasterio
+from rasterio.enums import MaskFlags
 from rasterio.windows import Window
 
 from .chainage import Stations
@@ -35,29 +36,61 @@ def bilinear(grid: np.ndarray, col: np.ndarray, row: np.ndarray) -> np.ndarray:
     Points outside the grid are NaN.
     """
     h, w = grid.shape
+    return bilinear_window(grid, col, row, col0=0, row0=0, width=w, height=h)
+
+
+def bilinear_window(grid: np.ndarray, col: np.ndarray, row: np.ndarray, *, col0: int,
+                    row0: int, width: int, height: int, nodata: float | None = None
+                    ) -> np.ndarray:
+    """Bilinear interpolation at dataset pixel coordinates from a window of the dataset.
+
+    ``col, row`` are fractional pixel coordinates in the whole dataset
+    (``width`` x ``height`` cells); ``grid`` is the window whose first cell is
+    dataset cell (``row0``, ``col0``) and must hold every neighbour used. The
+    weights depend on the dataset coordinates only, so a point gets the same
+    value whichever window it is read from. Cells equal to ``nodata`` or NaN
+    are nodata, treated as in :func:`bilinear`.
+    """
     u = col - 0.5
     v = row - 0.5
-    j0 = np.floor(u).astype(np.int64)
-    i0 = np.floor(v).astype(np.int64)
+    j0 = np.floor(u)
+    i0 = np.floor(v)
     fu = u - j0
     fv = v - i0
-    inside = (col >= 0) & (col <= w) & (row >= 0) & (row <= h)
-    out = np.full(col.shape, np.nan)
+    j0 = j0.astype(np.int64)
+    i0 = i0.astype(np.int64)
+    inside = (col >= 0) & (col <= width) & (row >= 0) & (row <= height)
+    gh, gw = grid.shape
+    # window indices; a neighbour beyond the dataset's edge repeats the edge cell (as
+    # GDAL does), and the window holds every cell a point inside the dataset needs
+    ja = np.clip(j0 - col0, 0, gw - 1)
+    jb = np.clip(j0 + (1 - col0), 0, gw - 1)
+    ia = np.clip(i0 - row0, 0, gh - 1) * gw
+    ib = np.clip(i0 + (1 - row0), 0, gh - 1) * gw
+    flat = grid.ravel()
     acc = np.zeros(col.shape)
     wsum = np.zeros(col.shape)
-    for di, dj, wt in ((0, 0, (1 - fv) * (1 - fu)), (0, 1, (1 - fv) * fu),
-                       (1, 0, fv * (1 - fu)), (1, 1, fv * fu)):
-        ii = np.clip(i0 + di, 0, h - 1)
-        jj = np.clip(j0 + dj, 0, w - 1)
-        z = grid[ii, jj]
-        ok = ~np.isnan(z)
-        acc += np.where(ok, z, 0.0) * wt * ok
-        wsum += wt * ok
-    near = grid[np.clip(np.floor(row).astype(np.int64), 0, h - 1),
-                np.clip(np.floor(col).astype(np.int64), 0, w - 1)]
-    good = inside & ~np.isnan(near) & (wsum > 0)
+    gu, gv = 1.0 - fu, 1.0 - fv
+    for idx, wt in ((ia + ja, gv * gu), (ia + jb, gv * fu), (ib + ja, fv * gu),
+                    (ib + jb, fv * fu)):
+        z = flat[idx].astype(np.float64)
+        ok = _valid(z, nodata)
+        acc += np.where(ok, z * wt, 0.0)
+        wsum += np.where(ok, wt, 0.0)
+    # the nearest cell decides whether the point has a value at all
+    ni = np.where(fv >= 0.5, ib, ia)
+    nj = np.where(fu >= 0.5, jb, ja)
+    good = inside & _valid(flat[ni + nj].astype(np.float64), nodata) & (wsum > 0)
+    out = np.full(col.shape, np.nan)
     out[good] = acc[good] / wsum[good]
     return out
+
+
+def _valid(z: np.ndarray, nodata: float | None) -> np.ndarray:
+    ok = ~np.isnan(z)
+    if nodata is not None and not np.isnan(nodata):
+        ok &= z != nodata
+    return ok
 
 
 def to_pixel(transform, x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -89,13 +122,100 @@ def read_window(ds: rasterio.io.DatasetReader, x: np.ndarray, y: np.ndarray,
     return grid, float(c0), float(r0)
 
 
+#: a separate window costs about as much as reading this many more cells (per-read
+#: overhead); neighbouring stations share a window while that is cheaper
+READ_OVERHEAD_CELLS = 5_000
+
+
+def station_cell_ranges(cols: np.ndarray, rows: np.ndarray, *, width: int, height: int
+                        ) -> np.ndarray:
+    """Dataset cells each station's samples need: ``[c0, c1, r0, r1)`` per row of points.
+
+    A sample at pixel coordinate ``c`` uses cells ``floor(c - 0.5)`` and the next
+    one (bilinear neighbours, which include the nearest cell). Ranges are clipped
+    to the dataset; a station entirely outside it gets an empty range.
+    """
+    with np.errstate(invalid="ignore"):
+        jc = np.floor(cols - 0.5)
+        ir = np.floor(rows - 0.5)
+    fin = np.isfinite(jc) & np.isfinite(ir)
+    big = np.iinfo(np.int64).max // 4
+    c0 = np.where(fin, jc, big).min(axis=1)
+    c1 = np.where(fin, jc, -big).max(axis=1) + 2
+    r0 = np.where(fin, ir, big).min(axis=1)
+    r1 = np.where(fin, ir, -big).max(axis=1) + 2
+    ext = np.stack([np.clip(c0, 0, width), np.clip(c1, 0, width),
+                    np.clip(r0, 0, height), np.clip(r1, 0, height)], axis=1)
+    return ext.astype(np.int64)
+
+
+def window_groups(ext: np.ndarray, *, overhead: int = READ_OVERHEAD_CELLS
+                  ) -> list[tuple[int, int, tuple[int, int, int, int]]]:
+    """Split consecutive stations into groups that share one DEM window.
+
+    Going along chainage, a station joins the current group while the grown
+    window costs fewer cells than reading its own window plus ``overhead``; on a
+    curved or diagonal line this keeps the windows close to the cells the
+    sections cover instead of one large bounding box per chunk.
+    Returns ``(first, stop, (c0, c1, r0, r1))`` per group.
+    """
+    groups: list[tuple[int, int, tuple[int, int, int, int]]] = []
+    rows = [tuple(e) for e in np.asarray(ext, dtype=np.int64).tolist()]
+    if not rows:
+        return groups
+
+    def area(e: tuple[int, ...]) -> int:
+        return max(e[1] - e[0], 0) * max(e[3] - e[2], 0)
+
+    first, cur = 0, rows[0]
+    for i in range(1, len(rows)):
+        e = rows[i]
+        if area(e) == 0:
+            merged = cur
+        elif area(cur) == 0:
+            merged = e
+        else:
+            merged = (min(cur[0], e[0]), max(cur[1], e[1]), min(cur[2], e[2]),
+                      max(cur[3], e[3]))
+        if area(merged) <= area(cur) + area(e) + overhead:
+            cur = merged
+        else:
+            groups.append((first, i, cur))
+            first, cur = i, e
+    groups.append((first, len(rows), cur))
+    return groups
+
+
+def _plain_nodata(ds: rasterio.io.DatasetReader) -> bool:
+    """True where band 1's mask is just its nodata value (or all valid)."""
+    flags = set(ds.mask_flag_enums[0])
+    return flags <= {MaskFlags.nodata, MaskFlags.all_valid}
+
+
 def sample_profiles(ds: rasterio.io.DatasetReader, stations: Stations,
-                    offsets: np.ndarray) -> np.ndarray:
-    """Terrain levels (stations x offsets) along each cross-section, NaN for nodata."""
+                    offsets: np.ndarray, *, overhead: int = READ_OVERHEAD_CELLS
+                    ) -> np.ndarray:
+    """Terrain levels (stations x offsets) along each cross-section, NaN for nodata.
+
+    Consecutive stations are read through shared windows (:func:`window_groups`);
+    the cells are kept in the DEM's own data type and only the four neighbours of
+    each sample are converted, so the cost follows the cells the sections cover.
+    """
     x, y = section_points(stations, offsets)
-    got = read_window(ds, x, y)
-    if got is None:
-        return np.full(x.shape, np.nan)
-    grid, c0, r0 = got
     cols, rows = to_pixel(ds.transform, x, y)
-    return bilinear(grid, cols - c0, rows - r0)
+    out = np.full(x.shape, np.nan)
+    ext = station_cell_ranges(cols, rows, width=ds.width, height=ds.height)
+    plain = _plain_nodata(ds)
+    nodata = ds.nodata if plain else None
+    for a, b, (c0, c1, r0, r1) in window_groups(ext, overhead=overhead):
+        if c1 <= c0 or r1 <= r0:
+            continue
+        win = Window(int(c0), int(r0), int(c1 - c0), int(r1 - r0))
+        if plain:
+            grid = ds.read(1, window=win)
+        else:
+            grid = np.ma.filled(ds.read(1, window=win, masked=True).astype(np.float64),
+                                np.nan)
+        out[a:b] = bilinear_window(grid, cols[a:b], rows[a:b], col0=int(c0), row0=int(r0),
+                                   width=ds.width, height=ds.height, nodata=nodata)
+    return out

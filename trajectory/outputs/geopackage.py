@@ -11,8 +11,8 @@ import numpy as np
 import pandas as pd
 import pyogrio
 import shapely
-from shapely.ops import substring
 
+from ..chainage import line_substrings
 from ..uncertainty import stretch_uncertainty
 from .atomic import atomic_path, refuse_overwrite
 from .describe import write_data_columns
@@ -25,6 +25,11 @@ from .style import sld, sld_paths, write_layer_styles
 def _frame(data: dict, layer: str, geometry, crs) -> gpd.GeoDataFrame:
     cols = field_names(layer)
     return gpd.GeoDataFrame({c: data[c] for c in cols}, geometry=geometry, crs=crs)
+
+
+def _line_ids(result) -> np.ndarray:
+    t = result.stations
+    return t["line_id"].to_numpy(object) if "line_id" in t else np.full(len(t), "", object)
 
 
 def station_layer(result) -> gpd.GeoDataFrame:
@@ -49,37 +54,43 @@ def crest_line_layer(result) -> gpd.GeoDataFrame:
     """The measured crest as 3-D lines, one per run of readable stations."""
     t = result.stations
     ok = np.isfinite(t["crest_level"].to_numpy())
-    brk = np.flatnonzero(np.diff(ok.astype(int)) != 0) + 1
+    lid = _line_ids(result)
+    brk = np.flatnonzero((np.diff(ok.astype(int)) != 0) | (lid[1:] != lid[:-1])) + 1
     runs = [r for r in np.split(np.arange(len(t)), brk) if r.size >= 2 and ok[r[0]]]
-    geoms, fr, to = [], [], []
+    geoms, fr, to, ids = [], [], [], []
     for r in runs:
+        ids.append(lid[r[0]])
         xyz = np.stack([t["crest_x"].to_numpy()[r], t["crest_y"].to_numpy()[r],
                         t["crest_level"].to_numpy()[r]], 1)
         geoms.append(shapely.linestrings(xyz))
         fr.append(t["chainage"].iloc[r[0]])
         to.append(t["chainage"].iloc[r[-1]])
-    return _frame({"from_chainage": fr, "to_chainage": to}, "crest_line", geoms, result.crs)
+    return _frame({"line_id": ids, "from_chainage": fr, "to_chainage": to}, "crest_line",
+                  geoms, result.crs)
 
 
 def stretch_layer(result, *, start: float, reverse: bool) -> gpd.GeoDataFrame:
     s = result.stretches
-    line = result.line
-    length = line.length
+    lines = result.lines or {"": result.line}
+    ids = _line_ids(result)[s.first] if len(s.first) else np.array([], object)
 
-    def along(c):
+    def along(c, length):
         d = c - start
         return length - d if reverse else d
 
-    geoms = []
-    for a, b in zip(s.from_chainage, s.to_chainage):
-        lo, hi = sorted((along(a), along(b)))
-        geoms.append(substring(line, float(lo), float(hi)))
+    geoms = np.empty(len(ids), dtype=object)
+    for lid, line in lines.items():
+        k = np.flatnonzero(ids == lid)
+        a = along(s.from_chainage[k], line.length)
+        b = along(s.to_chainage[k], line.length)
+        geoms[k] = line_substrings(line, np.minimum(a, b), np.maximum(a, b))
     return _frame(_stretch_data(result), "stretches", geoms, result.crs)
 
 
 def _stretch_data(result) -> dict[str, np.ndarray]:
     s = result.stretches
-    data = {"from_chainage": s.from_chainage, "to_chainage": s.to_chainage,
+    ids = _line_ids(result)[s.first] if len(s.first) else np.array([], object)
+    data = {"line_id": ids, "from_chainage": s.from_chainage, "to_chainage": s.to_chainage,
             "length": s.length, "status": s.status, "worst_margin": s.worst_margin,
             "worst_chainage": s.worst_chainage, "stations": s.last - s.first + 1,
             "absorbed": _absorbed(result.stations["status"].to_numpy(object), s)}
@@ -114,18 +125,28 @@ def option_layer(result, *, start: float, reverse: bool) -> gpd.GeoDataFrame:
     cols = field_names("options")
     if opt is None or opt.empty:
         return gpd.GeoDataFrame({c: [] for c in cols}, geometry=[], crs=result.crs)
-    line, length = result.line, result.line.length
-    geoms = []
-    for a, b in zip(opt["from_chainage"], opt["to_chainage"]):
-        da, db = a - start, b - start
+    lines = result.lines or {"": result.line}
+    ids = opt["line_id"].to_numpy(object)
+    geoms = np.empty(len(opt), dtype=object)
+    for lid, line in lines.items():
+        k = np.flatnonzero(ids == lid)
+        a = opt["from_chainage"].to_numpy(float)[k] - start
+        b = opt["to_chainage"].to_numpy(float)[k] - start
         if reverse:
-            da, db = length - da, length - db
-        lo, hi = sorted((da, db))
-        geoms.append(substring(line, float(lo), float(hi)))
+            a, b = line.length - a, line.length - b
+        geoms[k] = line_substrings(line, np.minimum(a, b), np.maximum(a, b))
     data = {c: opt[c].to_numpy() for c in cols}
     for c in ("closes_gap", "cheapest"):
         data[c] = data[c].astype(int)
-    return _frame(data, "options", geoms, result.crs)
+    return _frame(data, "options", list(geoms), result.crs)
+
+
+def _run_time(result):
+    """The run's time stamp (metadata), for every time written into the file."""
+    from datetime import datetime
+
+    text = result.metadata.get("run_time")
+    return datetime.fromisoformat(text) if text else None
 
 
 def metadata_table(result) -> pd.DataFrame:
@@ -157,7 +178,7 @@ def write_geopackage(result, path: str | Path, *, overwrite: bool = False) -> Pa
         # field descriptions and default styles, inside the temp file before the rename
         with contextlib.closing(sqlite3.connect(tmp)) as con, con:
             write_data_columns(con)
-            write_layer_styles(con)
+            write_layer_styles(con, when=_run_time(result))
     for layer, p in slds.items():
         with atomic_path(p, overwrite=overwrite) as tmp:
             tmp.write_text(sld(layer), encoding="utf-8")

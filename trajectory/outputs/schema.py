@@ -176,6 +176,7 @@ SECTION_PROFILE_FIELDS: tuple[Field, ...] = (
 )
 
 OPTION_FIELDS: tuple[Field, ...] = (
+    _f("line_id", "str", "", "Line the stretch belongs to (empty for a single line)"),
     _f("from_chainage", "float", "m", "Start of the stretch"),
     _f("to_chainage", "float", "m", "End of the stretch"),
     _f("length", "float", "m", "Length of the stretch"),
@@ -214,6 +215,12 @@ LAYERS: dict[str, tuple[str | None, tuple[Field, ...]]] = {
     "epochs": ("Point", EPOCH_FIELDS),
     "section_profiles": (None, SECTION_PROFILE_FIELDS),
 }
+
+# --- several lines in one run: the spatial layers lead with the line's id
+LINE_ID_FIELD = _f("line_id", "str", "",
+                   "Id of the centreline (its --line-id-field value; empty for a single line)")
+for _name in ("stations", "cross_sections", "crest_line", "stretches"):
+    LAYERS[_name] = (LAYERS[_name][0], (LINE_ID_FIELD, *LAYERS[_name][1]))
 
 
 def field_names(layer: str) -> list[str]:

@@ -132,10 +132,15 @@ _CREATE = """CREATE TABLE IF NOT EXISTS layer_styles (
     update_time DATETIME DEFAULT (strftime('%Y-%m-%dT%H:%M:%fZ','now')))"""
 
 
-def write_layer_styles(con: sqlite3.Connection) -> None:
-    """Add the ``layer_styles`` table (registered in gpkg_contents) with one default per layer."""
+def write_layer_styles(con: sqlite3.Connection, *, when: datetime | None = None) -> None:
+    """Add the ``layer_styles`` table (registered in gpkg_contents) with one default per layer.
+
+    ``when`` stamps the rows (default now); the writer passes the run time, so a
+    rerun of the same inputs writes the same bytes.
+    """
     con.execute(_CREATE)
-    now = datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%S.000Z")
+    stamp = (when or datetime.now(timezone.utc)).astimezone(timezone.utc)
+    now = stamp.strftime("%Y-%m-%dT%H:%M:%S.000Z")
     con.execute("INSERT OR REPLACE INTO gpkg_contents (table_name, data_type, identifier, "
                 "description, last_change) VALUES ('layer_styles', 'attributes', "
                 "'layer_styles', 'default layer styles (QML and SLD)', ?)", (now,))

@@ -1,0 +1,154 @@
+"""Several centrelines in one run: read the lines by an id field, and their conditions.
+
+Each line gets its own stations and chainage; its section conditions are the
+rows of the conditions table with its ``line_id`` (or, without that column, the
+whole table). This is an edge module: it reads files and returns plain geometry
+and validated tables.
+"""
+
+from __future__ import annotations
+
+import logging
+import re
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pyogrio
+from pyproj import CRS, Transformer
+from shapely.geometry import LineString
+from shapely.ops import transform
+
+from .errors import ConditionsError, InputError, InputFileError
+from .sources import Conditions, _join_lines, _pick_line_layer, read_conditions, validate_conditions
+from .status import Stretches
+
+log = logging.getLogger(__name__)
+
+#: column of the conditions table that names the line a row belongs to
+LINE_ID_COLUMN = "line_id"
+
+
+@dataclass(frozen=True)
+class Centreline:
+    """One levee line of a run: its id and geometry (in the working CRS)."""
+
+    line_id: str
+    line: LineString
+
+
+def read_centrelines(
+    path: str | Path, *, id_field: str, layer: str | None = None,
+    target_crs: CRS | None = None, gap_tolerance: float = 1.0,
+) -> tuple[list[Centreline], CRS]:
+    """Read every line of a centreline layer, grouped by the values of ``id_field``.
+
+    Features with the same id are joined into one line as
+    :func:`trajectory.sources.read_centreline` joins a single line's parts.
+    Lines come in the order their id first appears in the file.
+    """
+    p = Path(path)
+    if not p.exists():
+        raise InputFileError(f"{p}: centreline file not found")
+    layer = _pick_line_layer(p, layer)
+    try:
+        df = pyogrio.read_dataframe(p, layer=layer)
+    except Exception as exc:  # pyogrio raises several kinds for unreadable data
+        raise InputFileError(f"{p}: cannot read the centreline ({exc})") from exc
+    if id_field not in df.columns:
+        fields = ", ".join(c for c in df.columns if c != "geometry") or "none"
+        raise InputError(f"{p}: no field {id_field!r} for the line id; fields are {fields}")
+    if df.crs is None:
+        raise InputError(f"{p}: the centreline has no coordinate reference system; "
+                         "assign one (e.g. in a GIS) and run again")
+    ids = df[id_field]
+    if ids.isna().any():
+        rows = ", ".join(str(i + 1) for i in ids.index[ids.isna()][:5])
+        raise InputError(f"{p}: feature(s) {rows} have no {id_field}; give every line an id")
+    ids = ids.astype(str).str.strip()
+    crs = CRS.from_user_input(df.crs)
+    tr = None
+    if target_crs is not None and not crs.equals(target_crs):
+        tr = Transformer.from_crs(crs, target_crs, always_xy=True)
+        crs = target_crs
+    out: list[Centreline] = []
+    for lid in dict.fromkeys(ids):  # first-appearance order
+        geoms = [g for g in df.geometry[(ids == lid).to_numpy()]
+                 if g is not None and not g.is_empty]
+        if not geoms:
+            raise InputError(f"{p}: line {lid!r} has no geometry")
+        line = _join_lines(geoms, source=f"{p} (line {lid!r})", tolerance=gap_tolerance)
+        if tr is not None:
+            line = transform(tr.transform, line)
+        if line.length <= 0:
+            raise InputError(f"{p}: line {lid!r} has zero length")
+        out.append(Centreline(lid, line))
+    log.info("%d lines in %s by %s", len(out), p.name, id_field)
+    return out, crs
+
+
+def read_line_conditions(path: str | Path, line_ids: list[str]) -> dict[str, Conditions]:
+    """Section conditions per line.
+
+    With a ``line_id`` column, each line gets its own rows, validated on their own
+    (so chainage ranges of different lines may overlap); every bad row is reported
+    with its row number in the file. Without that column every line uses the
+    whole table.
+    """
+    p = Path(path)
+    if not p.exists():
+        raise InputFileError(f"{p}: conditions file not found")
+    try:
+        raw = pd.read_csv(p, dtype=str, skipinitialspace=True, comment="#")
+    except (pd.errors.EmptyDataError, pd.errors.ParserError, UnicodeDecodeError) as exc:
+        raise InputError(f"{p}: cannot read the conditions table ({exc})") from exc
+    raw.columns = [str(c).strip().lower() for c in raw.columns]
+    if LINE_ID_COLUMN not in raw.columns:
+        cond = read_conditions(p)
+        return {lid: cond for lid in line_ids}
+    lid_col = raw[LINE_ID_COLUMN].fillna("").str.strip()
+    findings: list[str] = []
+    for i in (lid_col == "").to_numpy().nonzero()[0]:
+        findings.append(f"row {i + 2}, column {LINE_ID_COLUMN}: empty")
+    unknown = sorted(set(lid_col) - set(line_ids) - {""})
+    if unknown:
+        log.warning("%s: conditions for unknown line(s) %s are ignored", p.name,
+                    ", ".join(unknown))
+    out: dict[str, Conditions] = {}
+    for lid in line_ids:
+        pos = (lid_col == lid).to_numpy().nonzero()[0]
+        if pos.size == 0:
+            findings.append(f"no rows for line {lid!r}")
+            continue
+        part = raw.iloc[pos].drop(columns=[LINE_ID_COLUMN]).reset_index(drop=True)
+        table, found = validate_conditions(part)
+        findings += [_file_rows(f, pos, lid) for f in found]
+        if not found:
+            out[lid] = Conditions(table=table)
+    if findings:
+        raise ConditionsError(str(p), findings)
+    return out
+
+
+def _file_rows(finding: str, pos, lid: str) -> str:
+    """A finding about the rows of one line, with row numbers of the whole file."""
+    text = re.sub(r"\brow (\d+)", lambda m: f"row {int(pos[int(m[1]) - 2]) + 2}", finding)
+    return f"line {lid!r}: {text}"
+
+
+def stack_stretches(parts: list[Stretches], counts: list[int]) -> Stretches:
+    """The stretches of several lines as one table; station indices run over all lines.
+
+    ``counts`` is the number of stations of each line, in the order of ``parts``.
+    """
+    if len(parts) == 1:
+        return parts[0]
+    base = np.concatenate([[0], np.cumsum(counts)[:-1]]).astype(int)
+    cols = {f: np.concatenate([getattr(p, f) for p in parts])
+            for f in Stretches.__dataclass_fields__}
+    shift = np.concatenate([np.full(len(p.first), b, dtype=int)
+                            for p, b in zip(parts, base, strict=True)])
+    cols["first"] = cols["first"] + shift
+    cols["last"] = cols["last"] + shift
+    return Stretches(**cols)
