@@ -177,11 +177,21 @@ def test_report_section_draws_options_and_lists_volumes(demo_result, tmp_path):
     png = base64.b64decode(p.imgs[0].split(",", 1)[1])
     assert png[:8] == b"\x89PNG\r\n\x1a\n"
     text = " ".join(p.cells)
-    assert "qualified engineer" in text and "order-of-magnitude" in text
+    assert "qualified engineer" in text
+    assert "no costs" in text and "cost, indicative" not in frag  # the demo sets no unit rate
     for name in ("raise", "outer_berm", "combined"):
         assert name in text
     # one star per stretch and basis: the cheapest option that closes the gap
     assert text.count("\u2605 cheapest") == int(result.options["cheapest"].sum())
+    # with a unit rate the costs are listed, with the order-of-magnitude wording
+    from dataclasses import replace
+
+    data = load_report_data(out)
+    opt = data.layers["options"]
+    costed = opt.assign(cost=opt["fill_volume"] * 12.0)
+    _, frag2 = remedy_section(replace(data, layers={"options": costed}))
+    assert "order-of-magnitude" in frag2 and "cost, indicative" in frag2
+    assert f"{costed['cost'].iloc[0]:,.0f}" in frag2
 
 
 def test_profiles_of_every_option_design_station_are_stored():

@@ -162,3 +162,28 @@ def test_stage_sections_follow_the_core_ones_in_order(report):
     assert heads == ["Summary", "Along the levee", "Overview map",
                      "Cross-sections of the worst stations", "How sure is each verdict",
                      "Reinforcement options", "Extra figure", "Extra table", "Run metadata"]
+
+
+def test_stage_builders_leave_out_what_the_file_lacks(demo_result):
+    from dataclasses import replace
+
+    from trajectory.outputs import report as rep
+    from trajectory.outputs.report_remedies import remedy_section
+    from trajectory.outputs.report_uncertainty import uncertainty_section
+
+    _, out = demo_result
+    data = rep.load_report_data(out)
+    assert remedy_section(data) is not None and uncertainty_section(data) is not None
+    # no options layer (a file from before the remedies), or an empty one beside deficits
+    assert remedy_section(replace(data, layers={})) is None
+    empty = data.layers["options"].iloc[:0]
+    assert remedy_section(replace(data, layers={"options": empty})) is None
+    # empty options and no deficit stretch: a note, not a gap
+    calm = data.stretches.assign(status="ok")
+    title, frag = remedy_section(replace(data, stretches=calm, layers={"options": empty}))
+    assert "no options needed" in frag
+    assert uncertainty_section(replace(data, stations=data.stations.drop(
+        columns="margin_sigma"))) is None
+    # the page still renders without the later stages' layers
+    html = rep.render_html(replace(data, layers={}))
+    assert "Reinforcement options" not in html and "How sure is each verdict" in html

@@ -30,9 +30,9 @@ from .. import CAUTION
 from ..errors import InputFileError
 from ..status import STATUSES
 from . import plots, report_epochs, report_remedies, report_uncertainty
-from .plots import figure_html
 from .atomic import atomic_path
 from .fill import stretch_table
+from .plots import figure_html
 from .profiles import worst_chainages
 from .schema import field_names
 from .style import STATUS_COLOURS

@@ -21,7 +21,8 @@ if TYPE_CHECKING:
     from .report import ReportData
 
 #: line styles of successive surveys, oldest first (told apart in grey-scale print)
-_SURVEY_STYLES = (("#9E9E9E", ":"), ("#6A6A6A", "-."), ("#3C3C3C", "--"), ("black", "-"))
+_SURVEY_STYLES = (("#A0A0A0", (0, (1, 1))), ("#808080", (0, (4, 1, 1, 1, 1, 1))),
+                  ("#5A5A5A", "-."), ("black", "-"))
 TITLE = "Change between surveys"
 
 
@@ -46,7 +47,7 @@ def crest_epochs_figure(epochs: pd.DataFrame, stations: pd.DataFrame) -> Figure:
         colour, ls = styles[j] if styles else (None, "-")
         ax.plot(ch, crest[:, j], lw=1.0, color=colour, ls=ls, label=f"crest level {lab}")
     ax.plot(stations["chainage"].to_numpy(float), stations["required_level"].to_numpy(float),
-            color=STATUS_COLOURS["deficit"], lw=1.3, ls=(0, (6, 2)),
+            color=STATUS_COLOURS["deficit"], lw=1.6, ls=(0, (9, 3)),
             label="required crest level (latest)")
     ax.set_xlabel("chainage (m)")
     ax.set_ylabel("level (m, DEM datum)")

@@ -57,14 +57,14 @@ def options_figure(station: pd.Series, rows: pd.DataFrame,
         bw = float(r.berm_width) if np.isfinite(r.berm_width) else 0.0
         x, z = outline(g, 0, crest_raise=float(r.crest_raise), berm_width=bw,
                        berm_level=float(r.berm_level), inner_edge=inner_edge)
-        ax.plot(x, z, color=colour, ls=ls, lw=1.6, label=str(r.option))
+        ax.plot(x, z, color=colour, ls=ls, lw=1.9, label=str(r.option))
         lo, hi = min(lo, x[0]), max(hi, x[-1])
     ax.set_xlim(lo - 8.0, hi + 8.0)
     swl = float(station["water_level"] + station["sea_level_rise"])
-    ax.axhline(swl, color="#2B6FA8", lw=0.9, ls=(0, (1, 1.5)),
+    ax.axhline(swl, color="#2B6FA8", lw=0.7, ls=(0, (1, 4)),
                label="still water + sea-level rise")
-    ax.axhline(float(station["required_level"]), color=STATUS_COLOURS["deficit"], lw=0.9,
-               ls=(0, (6, 2)), label="required crest level")
+    ax.axhline(float(station["required_level"]), color=STATUS_COLOURS["deficit"], lw=0.7,
+               ls=(0, (12, 4)), label="required crest level")
     ax.set_xlabel("offset from centreline (m), + towards the water")
     ax.set_ylabel("level (m, DEM datum)")
     ax.set_title(f"chainage {float(station['chainage']):,.0f} m: options on the worst station",
@@ -85,10 +85,11 @@ def _f(v, fmt: str) -> str:
 
 def options_table(rows: pd.DataFrame) -> str:
     """The options of one stretch as an HTML table, the cheapest closing one starred."""
+    costed = bool(np.isfinite(rows["cost"].to_numpy(float)).any())
     head = ("<tr><th>basis</th><th>option</th><th>crest raise (m)</th><th>berm level (m)</th>"
             "<th>berm width (m)</th><th>fill, estimate (m&sup3;)</th>"
             "<th>footprint out / in (m)</th><th>&gamma;<sub>b</sub></th><th>closes gap</th>"
-            "<th>cost, indicative</th></tr>")
+            + ("<th>cost, indicative</th>" if costed else "") + "</tr>")
     body = []
     for r in rows.itertuples(index=False):
         mark = " &#9733; cheapest" if int(r.cheapest) else ""
@@ -102,7 +103,7 @@ def options_table(rows: pd.DataFrame) -> str:
             f"<td class='n'>{_f(r.fill_volume, ',.0f')}</td>"
             f"<td class='n'>{_f(r.footprint_outer, '.1f')} / {_f(r.footprint_inner, '.1f')}</td>"
             f"<td class='n'>{_f(r.gamma_b, '.2f')}</td><td>{closes}</td>"
-            f"<td class='n'>{_f(r.cost, ',.0f')}</td></tr>")
+            + (f"<td class='n'>{_f(r.cost, ',.0f')}</td>" if costed else "") + "</tr>")
     return f"<table class='options'>{head}{''.join(body)}</table>"
 
 
@@ -130,7 +131,9 @@ def remedy_section(data: ReportData, *, n_worst: int = N_WORST) -> tuple[str, st
     sr = data.stretches.set_index("from_chainage")
     worst = sr["worst_margin"].reindex(opt["from_chainage"].unique())
     chosen = worst.sort_values(kind="stable").index[:n_worst]
-    parts = [f"<p class='caution'>{html.escape(CAVEAT)} {html.escape(COST_NOTE)}</p>",
+    costed = bool(np.isfinite(opt["cost"].to_numpy(float)).any())
+    note = COST_NOTE if costed else "No unit rate was set (fill_unit_cost): no costs."
+    parts = [f"<p class='caution'>{html.escape(CAVEAT)} {html.escape(note)}</p>",
              f"<p>The {len(chosen)} worst of {worst.size} stretches with options; every "
              "option is in the GeoPackage's <code>options</code> layer and the workbook's "
              "<code>options</code> sheet. &#9733;: the least fill that closes the gap.</p>"]
