@@ -19,7 +19,8 @@ from click.testing import CliRunner
 from trajectory.assess import RunInputs, assess, run
 from trajectory.cli import EXIT_INPUT, main
 from trajectory.epochs import Epoch, EpochError
-from trajectory.outputs.report_epochs import report_sections
+from trajectory.outputs.report import load_report_data
+from trajectory.outputs.report_epochs import crest_epochs_figure, epoch_section
 from trajectory.outputs.schema import EPOCH_STATION_FIELDS, field_names
 from trajectory.params import Settings
 from trajectory.synthetic import LeveeSpec, LowStretch, make_centreline, write_dem, write_scenario
@@ -118,12 +119,22 @@ def test_outputs_carry_the_epoch_figures(series, three):
 
 
 def test_report_figures_plot_every_epoch(three):
-    res, _ = three
-    secs = report_sections(res)
-    assert [t for t, _ in secs] == ["Crest level per survey", "Projected year per stretch"]
-    ax = secs[0][1].axes[0]
+    res, out = three
+    data = load_report_data(out)
+    title, frag = epoch_section(data)
+    assert title == "Change between surveys" and frag.count("data:image/png;base64,") == 2
+    fig = crest_epochs_figure(data.layers["epochs"], data.stations)
+    ax = fig.axes[0]
     assert len(ax.lines) == 4  # three surveys and the required level
+    # the oldest survey's line is the in-memory crest of that survey, read back from the file
     assert np.allclose(ax.lines[0].get_ydata(), res.epochs.crest[:, 0], equal_nan=True)
+    assert np.allclose(ax.lines[-1].get_ydata(), res.stations["required_level"],
+                       equal_nan=True)
+
+
+def test_single_survey_report_has_no_epoch_section(demo_result):
+    _, out = demo_result
+    assert epoch_section(load_report_data(out)) is None
 
 
 def test_same_terrain_model_twice_is_stable(series):

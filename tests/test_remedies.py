@@ -154,10 +154,11 @@ def test_report_section_draws_options_and_lists_volumes(demo_result, tmp_path):
     import base64
     from html.parser import HTMLParser
 
-    from trajectory.outputs.report_remedies import remedy_sections
+    from trajectory.outputs.report import load_report_data
+    from trajectory.outputs.report_remedies import remedy_section
 
-    result, _ = demo_result
-    [(title, frag)] = remedy_sections(result)
+    result, out = demo_result
+    title, frag = remedy_section(load_report_data(out))
     assert title == "Reinforcement options"
 
     class P(HTMLParser):
@@ -176,6 +177,48 @@ def test_report_section_draws_options_and_lists_volumes(demo_result, tmp_path):
     png = base64.b64decode(p.imgs[0].split(",", 1)[1])
     assert png[:8] == b"\x89PNG\r\n\x1a\n"
     text = " ".join(p.cells)
-    assert "qualified engineer" in text and "order-of-magnitude" in text
+    assert "qualified engineer" in text
+    assert "no costs" in text and "cost, indicative" not in frag  # the demo sets no unit rate
     for name in ("raise", "outer_berm", "combined"):
         assert name in text
+    # one star per stretch and basis: the cheapest option that closes the gap
+    assert text.count("\u2605 cheapest") == int(result.options["cheapest"].sum())
+    # with a unit rate the costs are listed, with the order-of-magnitude wording
+    from dataclasses import replace
+
+    data = load_report_data(out)
+    opt = data.layers["options"]
+    costed = opt.assign(cost=opt["fill_volume"] * 12.0)
+    _, frag2 = remedy_section(replace(data, layers={"options": costed}))
+    assert "order-of-magnitude" in frag2 and "cost, indicative" in frag2
+    assert f"{costed['cost'].iloc[0]:,.0f}" in frag2
+
+
+def test_profiles_of_every_option_design_station_are_stored():
+    # synthetic truth: eight deficit stretches, more than the REPORT_PROFILES worst kept
+    import pandas as pd
+
+    from trajectory.outputs.profiles import REPORT_PROFILES, stored_chainages
+
+    n = REPORT_PROFILES + 2
+    worst_ch = 100.0 * np.arange(n) + 50.0
+    stretches = pd.DataFrame({"status": ["deficit"] * n, "worst_margin": -0.1 * np.arange(n),
+                              "worst_chainage": worst_ch})
+    stations = pd.DataFrame({"chainage": worst_ch, "margin": -0.1 * np.arange(n)})
+    options = pd.DataFrame({"basis": ["worst_station", "every_station"] * n,
+                            "chainage": np.repeat(worst_ch, 2)})
+    options.loc[options["basis"] == "every_station", "chainage"] = np.nan
+    assert stored_chainages(stretches, stations).size == REPORT_PROFILES  # the worst alone
+    got = stored_chainages(stretches, stations, options)
+    assert got.size == n and set(got) == set(worst_ch)
+    assert got[:REPORT_PROFILES].tolist() == worst_ch[::-1][:REPORT_PROFILES].tolist()
+
+
+def test_demo_stores_the_design_station_profiles(demo_result):
+    import pyogrio
+
+    _, out = demo_result
+    opt = pyogrio.read_dataframe(out, layer="options")
+    prof = pyogrio.read_dataframe(out, layer="section_profiles")
+    design = opt.loc[opt["basis"] == "worst_station", "chainage"].to_numpy(float)
+    assert design.size and np.isin(design, prof["chainage"].to_numpy(float)).all()

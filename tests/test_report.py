@@ -65,13 +65,21 @@ def report(demo_result, tmp_path_factory):
     return path, html, page, out
 
 
+def _option_figures(gpkg) -> int:
+    from trajectory.outputs.report_remedies import N_WORST
+
+    opt = pyogrio.read_dataframe(gpkg, layer="options")
+    return min(N_WORST, opt["from_chainage"].nunique())
+
+
 def test_page_parses_and_is_self_contained(report):
-    _, html, page, _ = report
+    _, html, page, out = report
     assert page.stack == []
     assert html.startswith("<!DOCTYPE html>")
     assert all(r.startswith("data:") or r.startswith("#") for r in page.refs)
-    # summary bar, longitudinal, map, cross-sections, extra figure
-    assert len(page.images) == 5
+    # summary bar, longitudinal, map, cross-sections, margin band, one options figure per
+    # deficit stretch (the demo has two), extra figure; a single survey: no epoch figures
+    assert len(page.images) == 4 + 1 + _option_figures(out) + 1
     for img in page.images:
         head, data = img["src"].split(",", 1)
         assert head == "data:image/png;base64"
@@ -125,7 +133,8 @@ def test_report_command_and_assess_report(demo, report, tmp_path):
     res = CliRunner().invoke(main, args)
     assert res.exit_code == 0, res.output
     html = (tmp_path / "a.html").read_text(encoding="utf-8")
-    assert "a.gpkg" in html and html.count("data:image/png;base64,") == 4
+    assert "a.gpkg" in html
+    assert html.count("data:image/png;base64,") == 4 + 1 + _option_figures(tmp_path / "a.gpkg")
 
 
 def test_registered_section_builders_run_on_the_report_data(demo_result, monkeypatch):
@@ -144,3 +153,37 @@ def test_registered_section_builders_run_on_the_report_data(demo_result, monkeyp
     assert seen == [len(data.stations)]
     assert f"<p id='reg'>{len(data.stations)} stations</p>" in html
     assert html.index("Registered") < html.index("Explicit")
+
+
+def test_stage_sections_follow_the_core_ones_in_order(report):
+    _, html, _, _ = report
+    heads = [h.split("</h2>")[0] for h in html.split("<h2>")[1:]]
+    # the demo is a single survey: no "Change between surveys"
+    assert heads == ["Summary", "Along the levee", "Overview map",
+                     "Cross-sections of the worst stations", "How sure is each verdict",
+                     "Reinforcement options", "Extra figure", "Extra table", "Run metadata"]
+
+
+def test_stage_builders_leave_out_what_the_file_lacks(demo_result):
+    from dataclasses import replace
+
+    from trajectory.outputs import report as rep
+    from trajectory.outputs.report_remedies import remedy_section
+    from trajectory.outputs.report_uncertainty import uncertainty_section
+
+    _, out = demo_result
+    data = rep.load_report_data(out)
+    assert remedy_section(data) is not None and uncertainty_section(data) is not None
+    # no options layer (a file from before the remedies), or an empty one beside deficits
+    assert remedy_section(replace(data, layers={})) is None
+    empty = data.layers["options"].iloc[:0]
+    assert remedy_section(replace(data, layers={"options": empty})) is None
+    # empty options and no deficit stretch: a note, not a gap
+    calm = data.stretches.assign(status="ok")
+    title, frag = remedy_section(replace(data, stretches=calm, layers={"options": empty}))
+    assert "no options needed" in frag
+    assert uncertainty_section(replace(data, stations=data.stations.drop(
+        columns="margin_sigma"))) is None
+    # the page still renders without the later stages' layers
+    html = rep.render_html(replace(data, layers={}))
+    assert "Reinforcement options" not in html and "How sure is each verdict" in html

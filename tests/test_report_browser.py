@@ -26,7 +26,8 @@ def test_report_loads_in_chromium_and_renders(demo_result, tmp_path):
     _, out = demo_result
     page = write_report(out, tmp_path / "report.html")
     found = probe(page, tmp_path)
-    assert found["bad"] == [] and found["images"] == 4
+    # four core figures, the margin band, one options figure per deficit stretch (two)
+    assert found["bad"] == [] and found["images"] == 7
     png = screenshot(page, tmp_path / "report.png", height=1400)
     rgb = np.asarray(Image.open(png).convert("RGB")).astype(int)
     assert rgb.std() > 20          # not a blank page

@@ -306,13 +306,12 @@ def test_simulate_reports_empirical_sigmas(demo):
 
 
 # ------------------------------------------------------------------ report fragment
-def _small_result():
-    from types import SimpleNamespace
-
+def _small_stretches():
     import pandas as pd
 
     from trajectory.status import classify, merge_stretches
     from trajectory.uncertainty import confidence as conf
+    from trajectory.uncertainty import stretch_uncertainty
 
     ch = np.arange(7) * 25.0
     margin = np.array([0.4, 0.4, -0.03, -0.02, 0.4, -0.6, 0.5])
@@ -321,26 +320,44 @@ def _small_result():
     stations = pd.DataFrame({"chainage": ch, "margin": margin, "margin_sigma": sigma,
                              "p_short": p_short(margin, sigma), "status": status,
                              "confidence": conf(margin, sigma, watch_band=0.10)})
-    stretches = merge_stretches(ch, status, margin, start=0.0, end=162.5)
-    return SimpleNamespace(stations=stations, stretches=stretches, metadata={})
+    s = merge_stretches(ch, status, margin, start=0.0, end=162.5)
+    # the stretches layer's columns, as the GeoPackage writer fills them
+    stretches = pd.DataFrame({"from_chainage": s.from_chainage, "to_chainage": s.to_chainage,
+                              "status": s.status, "worst_margin": s.worst_margin,
+                              **stretch_uncertainty(s, stations)})
+    return stations, stretches
 
 
 def test_report_marks_marginal_stretches():
-    from trajectory.outputs.report_uncertainty import (
-        MARGINAL_MEANS, margin_figure, stretch_table_html, uncertainty_sections,
-    )
+    from trajectory.outputs.report_uncertainty import margin_figure, stretch_table_html
 
-    res = _small_result()
-    frag = stretch_table_html(res)
-    rows = [r for r in frag.split("<tr") if "<td>" in r]
+    stations, stretches = _small_stretches()
+    frag = stretch_table_html(stretches)
+    rows = [r for r in frag.split("<tr") if "<td" in r]
     # stretches: ok, deficit of two stations within noise of zero (marginal), ok,
     # a clear deficit (firm), ok
-    assert len(rows) == res.stretches.status.size == 5
+    assert len(rows) == len(stretches) == 5
     hatched = ["repeating-linear-gradient" in r for r in rows]
     marginal = ["<td>marginal</td>" in r for r in rows]
     assert hatched == marginal == [False, True, False, False, False]
-    assert MARGINAL_MEANS in frag
-    fig = margin_figure(res)
+    fig = margin_figure(stations, stretches)
     hatches = [p for p in fig.axes[0].patches if p.get_hatch()]
     assert len(hatches) == sum(marginal)
-    assert [t for t, _ in uncertainty_sections(res)][0] == "How sure is each verdict"
+
+
+def test_report_section_is_built_from_the_geopackage(demo_result):
+    import pyogrio
+
+    from trajectory.outputs.report import load_report_data
+    from trajectory.outputs.report_uncertainty import MARGINAL_MEANS, uncertainty_section
+
+    _, out = demo_result
+    title, frag = uncertainty_section(load_report_data(out))
+    assert title == "How sure is each verdict" and MARGINAL_MEANS in frag
+    s = pyogrio.read_dataframe(out, layer="stretches")
+    rows = [r for r in frag.split("<tr") if "<td" in r]
+    assert len(rows) == len(s)
+    assert sum("repeating-linear-gradient" in r for r in rows) == int(
+        (s["confidence"] == "marginal").sum())
+    # the accuracy sentence gives the class recorded in the run metadata (default class)
+    assert f"accuracy used: {Settings().vertical_accuracy}" in frag

@@ -43,7 +43,7 @@ def _compare(ws, csv_path):
 def test_stations_sheet_matches_the_csv(demo_result):
     _, out = demo_result
     wb = load_workbook(out.with_suffix(".xlsx"), read_only=True)
-    assert wb.sheetnames == ["stations", "stretches", "run"]
+    assert wb.sheetnames == ["stations", "stretches", "options", "run"]
     names, units, _ = _compare(wb["stations"], out.with_suffix(".csv"))
     assert names == field_names("stations")
     assert units == [f.unit or None for f in LAYERS["stations"][1]]
@@ -59,3 +59,26 @@ def test_stretches_sheet_matches_its_csv_and_is_sorted_by_severity(demo_result):
     vol = [r[names.index("fill_volume")] for r in rows]
     status = [r[names.index("status")] for r in rows]
     assert all((v > 0) == (s == "deficit") for v, s in zip(vol, status, strict=True))
+
+
+def test_options_sheet_holds_the_options_layer_with_the_cheapest_marked(demo_result):
+    import pyogrio
+
+    from trajectory.outputs.workbook import CHEAPEST_MARK
+
+    _, out = demo_result
+    wb = load_workbook(out.with_suffix(".xlsx"))
+    caution, names, units, rows = _sheet_rows(wb["options"])
+    assert "qualified engineer" in caution and "estimate" in caution
+    assert names == field_names("options")
+    assert units == [f.unit or None for f in LAYERS["options"][1]]
+    layer = pyogrio.read_dataframe(out, layer="options")
+    assert len(rows) == len(layer) > 0
+    for r, (_, ref) in zip(rows, layer.iterrows(), strict=True):
+        assert _same(r[names.index("fill_volume")], float(ref["fill_volume"]))
+        starred = str(r[names.index("option")]).endswith(CHEAPEST_MARK)
+        assert starred == bool(ref["cheapest"]) == bool(r[names.index("cheapest")])
+        assert str(r[names.index("option")]).startswith(ref["option"])
+    ws = wb["options"]
+    bold = [ws.cell(row=FIRST_DATA_ROW + k, column=1).font.bold for k in range(len(rows))]
+    assert bold == [bool(c) for c in layer["cheapest"]]

@@ -17,7 +17,7 @@ from ..uncertainty import stretch_uncertainty
 from .atomic import atomic_path, refuse_overwrite
 from .describe import write_data_columns
 from .epochs_layer import epoch_layer, epoch_stretch_columns
-from .profiles import profile_table, worst_chainages
+from .profiles import profile_table, stored_chainages
 from .schema import LAYERS, field_names
 from .style import sld, sld_paths, write_layer_styles
 
@@ -113,8 +113,8 @@ def stretch_frame(result) -> pd.DataFrame:
 
 
 def section_profile_table(result) -> pd.DataFrame:
-    """Profiles of the worst stations (see :mod:`.profiles`)."""
-    ch = worst_chainages(stretch_frame(result), result.stations)
+    """Profiles of the worst stations and the options' design stations (see :mod:`.profiles`)."""
+    ch = stored_chainages(stretch_frame(result), result.stations, result.options)
     return profile_table(result.stations["chainage"].to_numpy(float), result.offsets,
                          result.profiles, ch)
 
@@ -135,10 +135,20 @@ def option_layer(result, *, start: float, reverse: bool) -> gpd.GeoDataFrame:
         if reverse:
             a, b = line.length - a, line.length - b
         geoms[k] = line_substrings(line, np.minimum(a, b), np.maximum(a, b))
-    data = {c: opt[c].to_numpy() for c in cols}
+    data = option_frame(result)
+    return _frame({c: data[c].to_numpy() for c in cols}, "options", list(geoms), result.crs)
+
+
+def option_frame(result) -> pd.DataFrame:
+    """The options layer's attributes (no geometry; flags as 0/1), for layer and workbook."""
+    cols = field_names("options")
+    opt = result.options
+    if opt is None or opt.empty:
+        return pd.DataFrame({c: [] for c in cols})
+    data = opt[cols].reset_index(drop=True).copy()
     for c in ("closes_gap", "cheapest"):
         data[c] = data[c].astype(int)
-    return _frame(data, "options", list(geoms), result.crs)
+    return data
 
 
 def _run_time(result):

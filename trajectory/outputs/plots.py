@@ -8,6 +8,10 @@ readable in grey-scale print.
 
 from __future__ import annotations
 
+import base64
+import io
+from html import escape
+
 import numpy as np
 import pandas as pd
 from matplotlib.backends.backend_agg import FigureCanvasAgg
@@ -18,10 +22,22 @@ from ..status import STATUSES
 from .style import INK, STATUS_COLOURS
 
 
-def _figure(w: float, h: float) -> Figure:
+def new_figure(w: float, h: float) -> Figure:
+    """An empty figure of ``w`` x ``h`` inches on the Agg canvas, constrained layout."""
     fig = Figure(figsize=(w, h), dpi=150, layout="constrained")
     FigureCanvasAgg(fig)
     return fig
+
+
+_figure = new_figure
+
+
+def figure_html(fig: Figure, alt: str) -> str:
+    """A figure as an ``<img>`` holding its PNG as a base64 data URI."""
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png", dpi=150)
+    data = base64.b64encode(buf.getvalue()).decode("ascii")
+    return f'<img src="data:image/png;base64,{data}" alt="{escape(alt)}">'
 
 
 def _legend_handles(statuses=STATUSES) -> list[Patch]:

@@ -3,8 +3,10 @@
 The report is built from the GeoPackage alone (``trajectory report
 RESULTS.gpkg``), so the profiles it draws are stored in the
 ``section_profiles`` table: those of the worst station of each of the most
-severe stretches, at most :data:`REPORT_PROFILES` of them. Storing them keeps
-the report independent of where the DEM is (or whether it still exists).
+severe stretches, at most :data:`REPORT_PROFILES` of them, and of every station
+a worst-station reinforcement option was designed on (the report draws the
+options on it). Storing them keeps the report independent of where the DEM is
+(or whether it still exists).
 """
 
 from __future__ import annotations
@@ -32,6 +34,22 @@ def worst_chainages(stretches: pd.DataFrame, stations: pd.DataFrame, *,
         if np.isfinite(m).any():
             ch = np.array([stations["chainage"].to_numpy(float)[int(np.nanargmin(m))]])
     return ch
+
+
+def stored_chainages(stretches: pd.DataFrame, stations: pd.DataFrame,
+                     options: pd.DataFrame | None = None) -> np.ndarray:
+    """Chainages whose profiles are stored: :func:`worst_chainages`, then option stations.
+
+    The stations of the ``worst_station`` options (their ``chainage``) are added
+    where not already chosen, so every stretch with options has its design
+    station's profile even beyond the :data:`REPORT_PROFILES` worst.
+    """
+    ch = worst_chainages(stretches, stations)
+    if options is None or options.empty:
+        return ch
+    design = options.loc[options["basis"] == "worst_station", "chainage"].to_numpy(float)
+    design = np.unique(design[np.isfinite(design)])
+    return np.concatenate([ch, design[~np.isin(design, ch)]])
 
 
 def profile_table(chainage: np.ndarray, offsets: np.ndarray, profiles: np.ndarray,

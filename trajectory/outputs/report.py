@@ -13,8 +13,6 @@ core ones are in ``ReportData.layers`` for such builders.
 
 from __future__ import annotations
 
-import base64
-import io
 import logging
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
@@ -31,9 +29,10 @@ from matplotlib.figure import Figure
 from .. import CAUTION
 from ..errors import InputFileError
 from ..status import STATUSES
-from . import plots
+from . import plots, report_epochs, report_remedies, report_uncertainty
 from .atomic import atomic_path
 from .fill import stretch_table
+from .plots import figure_html
 from .profiles import worst_chainages
 from .schema import field_names
 from .style import STATUS_COLOURS
@@ -63,6 +62,9 @@ SectionBuilder = Callable[[ReportData], "Section | None"]
 #: builders of sections every report carries, after the core ones; other stages
 #: add theirs here, one line each (e.g. ``report_epochs.epoch_section,``)
 SECTION_BUILDERS: tuple[SectionBuilder, ...] = (
+    report_uncertainty.uncertainty_section,   # how sure each verdict is
+    report_epochs.epoch_section,              # several surveys (None for one)
+    report_remedies.remedy_section,           # reinforcement options
 )
 
 #: layers read into ReportData's own fields, or not needed by the report
@@ -95,14 +97,6 @@ def load_report_data(gpkg: str | Path) -> ReportData:
     return ReportData(stations=stations, stretches=stretches,
                       metadata=dict(zip(meta["key"], meta["value"], strict=True)),
                       profiles=pd.DataFrame(profiles), source=p.name, layers=layers)
-
-
-def figure_html(fig: Figure, alt: str) -> str:
-    """A figure as an ``<img>`` holding its PNG as a base64 data URI."""
-    buf = io.BytesIO()
-    fig.savefig(buf, format="png", dpi=150)
-    data = base64.b64encode(buf.getvalue()).decode("ascii")
-    return f'<img src="data:image/png;base64,{data}" alt="{escape(alt)}">'
 
 
 def summary_figures(stations: pd.DataFrame, stretches: pd.DataFrame) -> dict[str, float]:

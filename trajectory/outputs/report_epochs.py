@@ -1,65 +1,113 @@
-"""Report figures of a multi-survey run: crest level per epoch, projected year per stretch.
+"""Report section of a multi-survey run: crest level per survey, projected year per stretch.
 
-Each function returns a :class:`matplotlib.figure.Figure` (no pyplot, no GUI
-backend); :func:`report_sections` gives the (title, figure) pairs the report
-builder takes as extra sections.
+Built from the results GeoPackage (:class:`~.report.ReportData`): the crest
+levels per survey come from the ``epochs`` layer (one row per station and
+survey), the projected years from the ``stretches`` layer. A single-survey
+run has no such section.
 """
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 import numpy as np
+import pandas as pd
 from matplotlib.figure import Figure
 
-from .epochs_layer import epoch_stretch_columns
+from .plots import figure_html, new_figure
+from .style import INK, STATUS_COLOURS
+
+if TYPE_CHECKING:
+    from .report import ReportData
+
+#: line styles of successive surveys, oldest first (told apart in grey-scale print)
+_SURVEY_STYLES = (("#A0A0A0", (0, (1, 1))), ("#808080", (0, (4, 1, 1, 1, 1, 1))),
+                  ("#5A5A5A", "-."), ("black", "-"))
+TITLE = "Change between surveys"
 
 
-def crest_epochs_figure(result, *, width: float = 9.0, height: float = 4.0) -> Figure:
-    """Crest level along chainage, one line per survey epoch, with the required level."""
-    t, lv = result.stations, result.epochs
-    c = t["chainage"].to_numpy(float)
-    fig = Figure(figsize=(width, height), layout="constrained")
+def survey_levels(epochs: pd.DataFrame) -> tuple[list[str], np.ndarray, np.ndarray, np.ndarray]:
+    """Surveys oldest first: labels, years, chainages and crest levels (stations x surveys)."""
+    ep = pd.DataFrame(epochs)
+    order = (ep.groupby("epoch", sort=False)["year"].first().sort_values(kind="stable"))
+    labels = [str(lab) for lab in order.index]
+    wide = ep.pivot_table(index="chainage", columns="epoch", values="crest_level",
+                          aggfunc="first", dropna=False).reindex(columns=order.index)
+    return (labels, order.to_numpy(float), wide.index.to_numpy(float),
+            wide.to_numpy(float))
+
+
+def crest_epochs_figure(epochs: pd.DataFrame, stations: pd.DataFrame) -> Figure:
+    """Crest level along chainage, one line per survey, with the required level."""
+    labels, _, ch, crest = survey_levels(epochs)
+    fig = new_figure(10.0, 4.0)
     ax = fig.add_subplot()
-    for j, (lab, src) in enumerate(zip(lv.labels, lv.sources, strict=True)):
-        ax.plot(c, lv.crest[:, j], lw=1.0, label=lab or src)
-    ax.plot(c, t["required_level"].to_numpy(float), "k--", lw=1.0, label="required level")
+    styles = _SURVEY_STYLES[-len(labels):] if len(labels) <= len(_SURVEY_STYLES) else None
+    for j, lab in enumerate(labels):
+        colour, ls = styles[j] if styles else (None, "-")
+        ax.plot(ch, crest[:, j], lw=1.0, color=colour, ls=ls, label=f"crest level {lab}")
+    ax.plot(stations["chainage"].to_numpy(float), stations["required_level"].to_numpy(float),
+            color=STATUS_COLOURS["deficit"], lw=1.6, ls=(0, (9, 3)),
+            label="required crest level (latest)")
     ax.set_xlabel("chainage (m)")
-    ax.set_ylabel("crest level (m)")
-    ax.set_title("Crest level per survey")
-    ax.grid(alpha=0.3)
-    ax.legend(fontsize="small", ncol=min(len(lv.labels) + 1, 5))
+    ax.set_ylabel("level (m, DEM datum)")
+    ax.grid(alpha=0.3, lw=0.4)
+    fig.legend(*ax.get_legend_handles_labels(), fontsize=7, ncol=min(len(labels) + 1, 5),
+               loc="outside upper center", frameon=False)
+    ax.set_xlim(float(ch.min()), float(ch.max()))
     return fig
 
 
-def projected_year_figure(result, *, width: float = 9.0, height: float = 3.5) -> Figure:
+def projected_year_figure(stretches: pd.DataFrame, *, survey_year: float) -> Figure:
     """Earliest projected year of each stretch, drawn over the stretch's chainage."""
-    s = result.stretches
-    fig_cols = epoch_stretch_columns(result)
-    year = fig_cols["earliest_projected_year"]
-    fig = Figure(figsize=(width, height), layout="constrained")
+    s = pd.DataFrame(stretches)
+    year = s["earliest_projected_year"].to_numpy(float)
+    a, b = s["from_chainage"].to_numpy(float), s["to_chainage"].to_numpy(float)
+    status = s["status"].astype(str).to_numpy()
+    fig = new_figure(10.0, 3.4)
     ax = fig.add_subplot()
     has = np.isfinite(year)
-    for a, b, y, st in zip(s.from_chainage[has], s.to_chainage[has], year[has], s.status[has],
-                              strict=True):
-        ax.hlines(y, a, b, lw=6, color="tab:red" if st == "deficit" else "tab:orange")
-        ax.annotate(f"{y:.0f}", ((a + b) / 2, y), textcoords="offset points", xytext=(0, 6),
-                    ha="center", fontsize="small")
-    now = result.epochs.years[-1]
-    if np.isfinite(now):
-        ax.axhline(now, color="grey", lw=0.8, ls=":")
-    for a, b in zip(s.from_chainage[~has], s.to_chainage[~has], strict=True):
-        ax.axvspan(a, b, color="tab:green", alpha=0.08, lw=0)
-    if s.status.size:
-        ax.set_xlim(float(s.from_chainage.min()), float(s.to_chainage.max()))
+    for lo, hi in zip(a[~has], b[~has], strict=True):
+        ax.axvspan(lo, hi, facecolor="none", edgecolor="#B0B0B0", hatch="..", lw=0)
+    for lo, hi, y, st in zip(a[has], b[has], year[has], status[has], strict=True):
+        ax.hlines(y, lo, hi, lw=6, color=STATUS_COLOURS.get(st, INK))
+        ax.annotate(f"{y:.0f}", ((lo + hi) / 2, y), textcoords="offset points",
+                    xytext=(0, 6), ha="center", fontsize=7)
+    if np.isfinite(survey_year):
+        ax.axhline(survey_year, color=INK, lw=0.8, ls=":")
+        ax.annotate(f"latest survey {survey_year:.0f}", (1.0, survey_year),
+                    xycoords=("axes fraction", "data"), xytext=(-2, -10),
+                    textcoords="offset points", ha="right", fontsize=7)
+    if has.any():
+        lo_y = min(float(np.nanmin(year[has])), survey_year if np.isfinite(survey_year)
+                   else np.inf)
+        ax.set_ylim(lo_y - 3, float(np.nanmax(year[has])) + 6)
+    if a.size:
+        ax.set_xlim(float(a.min()), float(b.max()))
     ax.set_xlabel("chainage (m)")
-    ax.set_ylabel("year")
-    ax.set_title("Earliest year the margin runs out, per stretch (shaded: none projected)")
-    ax.grid(alpha=0.3)
+    ax.set_ylabel("projected year")
+    ax.grid(alpha=0.3, lw=0.4)
     return fig
 
 
-def report_sections(result) -> list[tuple[str, Figure]]:
-    """The epoch sections of the report; none for a single survey."""
-    if result.epochs is None or len(result.epochs.labels) < 2:
-        return []
-    return [("Crest level per survey", crest_epochs_figure(result)),
-            ("Projected year per stretch", projected_year_figure(result))]
+def epoch_section(data: ReportData) -> tuple[str, str] | None:
+    """The report's section on the surveys; None with fewer than two surveys."""
+    ep = data.layers.get("epochs")
+    if ep is None or ep.empty or ep["epoch"].nunique() < 2:
+        return None
+    labels, years, _, _ = survey_levels(ep)
+    latest = float(np.nanmax(years)) if np.isfinite(years).any() else np.nan
+    parts = [
+        f"<p>Crest level read from {len(labels)} surveys ({', '.join(labels)}), against "
+        "the required crest level of the latest run.</p>",
+        figure_html(crest_epochs_figure(ep, data.stations), "crest level per survey"),
+        "<h3>Projected year per stretch</h3>",
+        "<p>The earliest year a station of the stretch reaches zero margin at its crest "
+        "lowering rate (least squares over the surveys; the survey year where the margin "
+        "is already below zero). Dotted background: no projected year (stable, rising or "
+        "not significant). A straight-line projection, not a forecast.</p>",
+    ]
+    if "earliest_projected_year" in data.stretches.columns:
+        parts.append(figure_html(projected_year_figure(data.stretches, survey_year=latest),
+                                 "earliest projected year per stretch"))
+    return TITLE, "\n".join(parts)

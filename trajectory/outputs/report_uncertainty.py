@@ -1,19 +1,31 @@
-"""Report section on how sure each verdict is (HTML fragment and a figure).
+"""Report section on how sure each verdict is: margin +- 2 sigma figure and stretch table.
 
-The report builder takes ``(title, html_fragment_or_figure)`` pairs; this module
-provides :func:`uncertainty_sections`, which returns this topic's pairs. Marginal
-stretches are hatched, in the table and in the figure.
+Built from the results GeoPackage (:class:`~.report.ReportData`): the
+stations' ``margin`` and ``margin_sigma``, the stretches' ``confidence``,
+``margin_sigma``, ``p_short`` and ``marginal_stations``, and the accuracy
+parameters recorded in the run metadata. Marginal stretches are hatched, in
+the table and in the figure.
 """
 
 from __future__ import annotations
 
 import html
-from typing import Any
+from typing import TYPE_CHECKING
 
 import numpy as np
+import pandas as pd
 from matplotlib.figure import Figure
+from matplotlib.patches import Patch
 
-from ..uncertainty import FIRM_SIGMAS, accuracy_from_settings, stretch_uncertainty
+from ..errors import TrajectoryError
+from ..uncertainty import CUSTOM, FIRM_SIGMAS, VerticalAccuracy, accuracy_preset
+from .plots import figure_html, new_figure
+from .style import INK
+
+if TYPE_CHECKING:
+    from .report import ReportData
+
+TITLE = "How sure is each verdict"
 
 #: the sentence that says what a marginal verdict means (table and figure captions)
 MARGINAL_MEANS = (
@@ -26,69 +38,94 @@ _HATCH_CSS = ("background: repeating-linear-gradient(45deg, #ffffff, #ffffff 4px
               "#d9d9d9 4px, #d9d9d9 6px);")
 
 
-def _accuracy_text(result: Any) -> str:
-    from ..params import Settings
+def accuracy_of(metadata: dict[str, str]) -> VerticalAccuracy | None:
+    """The terrain model accuracy recorded in the run metadata (None if not recorded)."""
+    name = metadata.get("param_vertical_accuracy")
+    if not name:
+        return None
+    try:
+        if name == CUSTOM:
+            return VerticalAccuracy(float(metadata.get("param_sigma_systematic", "nan")),
+                                    float(metadata.get("param_sigma_random", "nan")), CUSTOM)
+        return accuracy_preset(name)
+    except (TrajectoryError, ValueError):
+        return None
 
-    meta = result.metadata
-    keys = ("vertical_accuracy", "sigma_systematic", "sigma_random")
-    given = {k: meta[f"param_{k}"] for k in keys if f"param_{k}" in meta}
-    acc = accuracy_from_settings(Settings().replace(**given))
-    return (f"Terrain model accuracy used: {html.escape(acc.source)}, systematic "
+
+def _accuracy_text(metadata: dict[str, str]) -> str:
+    acc = accuracy_of(metadata)
+    used = ("" if acc is None else
+            f"Terrain model accuracy used: {html.escape(acc.source)}, systematic "
             f"{acc.systematic:.3f} m, random per cell {acc.random:.3f} m (standard "
-            f"deviations). p_short is the probability that the margin is below zero "
-            f"under a normal model.")
+            f"deviations). ")
+    return used + ("p_short is the probability that the margin is below zero under a "
+                   "normal model.")
 
 
-def stretch_table_html(result: Any) -> str:
-    """The stretches with their margin, its standard deviation, p_short and confidence."""
-    s = result.stretches
-    unc = stretch_uncertainty(s, result.stations)
+def _num(x, digits: int) -> str:
+    try:
+        f = float(x)
+    except (TypeError, ValueError):
+        return ""
+    return "" if not np.isfinite(f) else f"{f:.{digits}f}"
+
+
+def stretch_table_html(stretches: pd.DataFrame) -> str:
+    """The stretches with worst margin, its standard deviation, p_short and confidence."""
     rows = []
-    for i in range(s.status.size):
-        marginal = unc["confidence"][i] == "marginal"
-        style = f' style="{_HATCH_CSS}"' if marginal else ""
-        conf = unc["confidence"][i] or ""
-        cells = (f"{s.from_chainage[i]:.0f}", f"{s.to_chainage[i]:.0f}",
-                 html.escape(str(s.status[i])), _num(s.worst_margin[i], 3),
-                 _num(unc["margin_sigma"][i], 3), _num(unc["p_short"][i], 2),
-                 html.escape(conf))
-        rows.append(f"<tr{style}>" + "".join(f"<td>{c}</td>" for c in cells) + "</tr>")
+    for r in pd.DataFrame(stretches).itertuples(index=False):
+        conf = "" if r.confidence is None or pd.isna(r.confidence) else str(r.confidence)
+        style = f' style="{_HATCH_CSS}"' if conf == "marginal" else ""
+        cells = (_num(r.from_chainage, 0), _num(r.to_chainage, 0), html.escape(str(r.status)),
+                 _num(r.worst_margin, 3), _num(r.margin_sigma, 3), _num(r.p_short, 2),
+                 html.escape(conf), _num(r.marginal_stations, 0))
+        rows.append(f"<tr{style}>" + "".join(f"<td class='n'>{c}</td>" if i != 2 and i != 6
+                                             else f"<td>{c}</td>"
+                                             for i, c in enumerate(cells)) + "</tr>")
     head = ("<tr><th>from (m)</th><th>to (m)</th><th>status</th><th>worst margin (m)</th>"
-            "<th>margin sigma (m)</th><th>p_short</th><th>confidence</th></tr>")
-    return (f"<p>{_accuracy_text(result)}</p>\n<p>{MARGINAL_MEANS}</p>\n"
-            f'<table class="uncertainty">\n{head}\n' + "\n".join(rows) + "\n</table>")
+            "<th>margin sigma (m)</th><th>p_short</th><th>confidence</th>"
+            "<th>marginal stations</th></tr>")
+    return f'<table class="uncertainty">\n{head}\n' + "\n".join(rows) + "\n</table>"
 
 
-def margin_figure(result: Any) -> Figure:
-    """Margin along the chainage with its +-2 sigma band; marginal stretches hatched."""
-    st = result.stations
-    ch = st["chainage"].to_numpy(float)
-    m = st["margin"].to_numpy(float)
-    sig = st["margin_sigma"].to_numpy(float)
-    fig = Figure(figsize=(9.0, 3.2))
+def margin_figure(stations: pd.DataFrame, stretches: pd.DataFrame) -> Figure:
+    """Margin along the chainage with its +- 2 sigma band; marginal stretches hatched."""
+    ch = stations["chainage"].to_numpy(float)
+    m = stations["margin"].to_numpy(float)
+    sig = stations["margin_sigma"].to_numpy(float)
+    fig = new_figure(10.0, 3.6)
     ax = fig.add_subplot()
-    unc = stretch_uncertainty(result.stretches, st)
-    s = result.stretches
-    for i in np.flatnonzero(unc["confidence"] == "marginal"):
-        ax.axvspan(s.from_chainage[i], s.to_chainage[i], facecolor="none",
-                   edgecolor="0.6", hatch="///", linewidth=0)
+    marginal = stretches[stretches["confidence"].astype(str) == "marginal"]
+    for a, b in zip(marginal["from_chainage"], marginal["to_chainage"], strict=True):
+        ax.axvspan(a, b, facecolor="none", edgecolor="0.55", hatch="///", linewidth=0)
     ax.fill_between(ch, m - FIRM_SIGMAS * sig, m + FIRM_SIGMAS * sig, color="0.8",
-                    label=f"margin +- {FIRM_SIGMAS:g} sigma")
+                    label=f"margin ± {FIRM_SIGMAS:g} σ")
     ax.plot(ch, m, color="0.1", linewidth=1.0, label="margin")
-    ax.axhline(0.0, color="0.3", linewidth=0.8, linestyle="--")
+    ax.axhline(0.0, color=INK, linewidth=0.8, linestyle="--", label="zero margin")
     ax.set_xlabel("chainage (m)")
     ax.set_ylabel("margin (m)")
-    ax.legend(loc="upper right", fontsize="small")
-    ax.set_title("Margin and its uncertainty (hatched: marginal)", fontsize="medium")
-    fig.tight_layout()
+    ax.grid(alpha=0.3, lw=0.4)
+    handles, labels = ax.get_legend_handles_labels()
+    handles.append(Patch(facecolor="none", edgecolor="0.55", hatch="///"))
+    labels.append("marginal stretch")
+    fig.legend(handles, labels, fontsize=7, ncol=4, loc="outside upper center",
+               frameon=False)
+    if ch.size:
+        ax.set_xlim(float(ch.min()), float(ch.max()))
     return fig
 
 
-def uncertainty_sections(result: Any) -> list[tuple[str, Any]]:
-    """This topic's report sections: (title, html fragment or Figure) pairs."""
-    return [("How sure is each verdict", stretch_table_html(result)),
-            ("Margin and its uncertainty", margin_figure(result))]
-
-
-def _num(x: float, digits: int) -> str:
-    return "" if x is None or not np.isfinite(x) else f"{x:.{digits}f}"
+def uncertainty_section(data: ReportData) -> tuple[str, str] | None:
+    """The report's section on confidence; None when the file has no uncertainty fields."""
+    need_st, need_sr = {"margin_sigma"}, {"confidence", "margin_sigma", "p_short",
+                                          "marginal_stations"}
+    if not (need_st <= set(data.stations.columns) and need_sr <= set(data.stretches.columns)):
+        return None
+    sr = pd.DataFrame(data.stretches.drop(columns="geometry", errors="ignore"))
+    content = "\n".join([
+        f"<p>{_accuracy_text(data.metadata)}</p>",
+        figure_html(margin_figure(data.stations, sr), "margin and its uncertainty"),
+        f"<p>{MARGINAL_MEANS}</p>",
+        stretch_table_html(sr),
+    ])
+    return TITLE, content

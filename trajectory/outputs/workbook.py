@@ -1,8 +1,10 @@
-"""The deficit table as an XLSX workbook: stations, stretches by severity, run metadata.
+"""The deficit table as an XLSX workbook: stations, stretches by severity, options, run metadata.
 
 Each data sheet has the caution in its first row, the field names in the
 second, their units in the third and the values from the fourth; panes are
 frozen below the header and status cells are filled with the status colours.
+On the ``options`` sheet (the options layer's fields) the cheapest option
+that closes the gap of each stretch and basis is in bold with a star.
 """
 
 from __future__ import annotations
@@ -69,14 +71,39 @@ def _sheet(wb: Workbook, title: str, df: pd.DataFrame, units: dict[str, str],
                 ws.cell(row=r, column=j).number_format = "0.000"
 
 
+#: mark of the cheapest option on the options sheet (beside the 1 of `cheapest`)
+CHEAPEST_MARK = "\u2605 cheapest"
+
+
+def _mark_cheapest(ws, df: pd.DataFrame) -> None:
+    if "cheapest" not in df.columns:
+        return
+    col = list(df.columns).index("option") + 1
+    for k, flag in enumerate(df["cheapest"].to_numpy()):
+        if int(flag):
+            r = FIRST_DATA_ROW + k
+            for cell in ws[r]:
+                cell.font = Font(bold=True)
+            c = ws.cell(row=r, column=col)
+            c.value = f"{c.value} {CHEAPEST_MARK}"
+
+
 def write_workbook(stations: pd.DataFrame, stretches: pd.DataFrame, metadata: dict,
-                   path: str | Path, *, overwrite: bool = False) -> Path:
-    """Write ``stations`` (contract fields), the severity-sorted ``stretches`` and metadata."""
+                   path: str | Path, *, overwrite: bool = False,
+                   options: pd.DataFrame | None = None) -> Path:
+    """Write ``stations`` (contract fields), the severity-sorted ``stretches``, the
+    ``options`` (options layer's fields; the sheet is left out when None) and metadata."""
+    from .report_remedies import CAVEAT, COST_NOTE
+
     wb = Workbook()
     wb.remove(wb.active)
     _sheet(wb, "stations", stations, _units("stations"), CAUTION)
     _sheet(wb, "stretches", stretches, _units("stretches"),
            CAUTION + " Fill volumes are estimates (method in the README).")
+    if options is not None:
+        _sheet(wb, "options", options, _units("options"),
+               f"{CAUTION} Reinforcement options: {CAVEAT} {COST_NOTE}")
+        _mark_cheapest(wb["options"], options)
     meta = pd.DataFrame({"key": list(metadata), "value": [str(v) for v in metadata.values()]})
     _sheet(wb, "run", meta, {}, CAUTION)
     with atomic_path(path, overwrite=overwrite) as tmp:
@@ -87,9 +114,10 @@ def write_workbook(stations: pd.DataFrame, stretches: pd.DataFrame, metadata: di
 def write_result_workbook(result, path: str | Path, *, overwrite: bool = False) -> Path:
     """The workbook of an in-memory result."""
     from .fill import stretch_table
-    from .geopackage import stretch_frame
+    from .geopackage import option_frame, stretch_frame
     from .table import deficit_frame
 
     st = deficit_frame(result)
     return write_workbook(st, stretch_table(st, stretch_frame(result)),
-                          dict(sorted(result.metadata.items())), path, overwrite=overwrite)
+                          dict(sorted(result.metadata.items())), path, overwrite=overwrite,
+                          options=option_frame(result))
