@@ -165,6 +165,18 @@ def measure_assess(paths: dict[str, str], workers: int) -> dict:
     return {"wall": wall, "cpu": cpu, "stations": len(res.stations), "status": counts}
 
 
+def measure_engine(paths: dict[str, str], workers: int) -> dict:
+    """``trajectory.assess.run`` alone: the whole computation, no files written."""
+    from trajectory.assess import RunInputs, run
+    from trajectory.params import Settings
+
+    t, cpu0 = time.perf_counter(), _cpu()
+    res = run(RunInputs(paths["centreline"], paths["dem"], paths["sections"]),
+              Settings(workers=workers))
+    wall, cpu = time.perf_counter() - t, _cpu() - cpu0
+    return {"wall": wall, "cpu": cpu, "stations": len(res.stations)}
+
+
 def measure_naive(paths: dict[str, str], workers: int) -> dict:
     """The typical per-section script: shapely points, then ``dataset.sample``."""
     import numpy as np
@@ -190,8 +202,8 @@ def measure_naive(paths: dict[str, str], workers: int) -> dict:
             "stations": len(st)}
 
 
-MEASURES = {"floor": measure_floor, "blocks": measure_blocks, "serial": measure_assess,
-            "pool": measure_assess, "naive": measure_naive}
+MEASURES = {"floor": measure_floor, "blocks": measure_blocks, "engine": measure_engine,
+            "serial": measure_assess, "pool": measure_assess, "naive": measure_naive}
 
 
 def _child(kind: str, paths_json: str, workers: int) -> None:
@@ -218,7 +230,7 @@ def _run_child(kind: str, paths: dict, workers: int) -> dict:
 # ------------------------------------------------------------------ report
 def bench(lengths: list[float], folder: Path, *, repeat: int, workers: int,
           naive: bool) -> dict:
-    kinds = ["floor", "blocks", "serial", "pool"] + (["naive"] if naive else [])
+    kinds = ["floor", "blocks", "engine", "serial", "pool"] + (["naive"] if naive else [])
     report: dict = {"cores": workers, "repeat": repeat, "lengths": {}}
     for km in lengths:
         paths = build(folder / f"{km:g}km", km * 1000.0)
@@ -252,6 +264,7 @@ def print_report(rep: dict) -> None:
         b = r["best"]
         fl = b["floor"]["wall"]
         print(f"{km:g} km: serial / floor = {b['serial']['wall'] / fl:.2f} (target <= 2)")
+        print(f"{km:g} km: engine (run, no files) / floor = {b['engine']['wall'] / fl:.2f}")
         print(f"{km:g} km: pool / (floor / {cores}) = {b['pool']['wall'] / (fl / cores):.2f} "
               f"(target <= 1.2)")
         print(f"{km:g} km: serial / blocks floor = {b['serial']['wall'] / b['blocks']['wall']:.2f}")
@@ -261,6 +274,12 @@ def print_report(rep: dict) -> None:
     ks = sorted(rep["lengths"])
     if len(ks) >= 2:
         a, z = rep["lengths"][ks[0]]["best"], rep["lengths"][ks[-1]]["best"]
+        # cost per km above start-up: the slope between the shortest and longest line
+        dkm = ks[-1] - ks[0]
+        per_km = {k: (z[k]["wall"] - a[k]["wall"]) / dkm for k in z}
+        print(f"\ncost per km above start-up ({ks[0]:g} -> {ks[-1]:g} km), s/km:")
+        for k, v in per_km.items():
+            print(f"  {k:>7}: {v:.4f}  ({v / per_km['floor']:.2f} x floor)")
         for k in ("serial", "pool"):
             key = "rss_children_mb" if k == "pool" else "rss_mb"
             print(f"peak memory {k}: {ks[-1]:g} km / {ks[0]:g} km = "

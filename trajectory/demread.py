@@ -128,25 +128,39 @@ def _is_fill(v: np.ndarray, fills: tuple[float, ...]) -> np.ndarray:
         return np.isin(v, np.asarray(fills, dtype=float)) | (np.abs(v) > FILL_MAGNITUDE)
 
 
+#: places along the line where the DEM's values are probed (constant cost per run)
+PROBE_PLACES = 9
+
+
 def _probe(ds: rasterio.io.DatasetReader, line: LineString, margin: float) -> np.ndarray:
-    """A decimated read of the window around the line (never the whole of a huge DEM)."""
-    x0, y0, x1, y1 = line.bounds
+    """Values of small windows at places spread along the line (never the whole DEM).
+
+    ``PROBE_PLACES`` squares of 2 x ``margin`` centred on points evenly spaced
+    along the line are read, decimated to at most ``PROBE_CELLS`` a side each, so
+    the cost does not grow with the line's length or its bounding box.
+    """
     b = ds.bounds
-    x0, y0 = max(x0 - margin, b.left), max(y0 - margin, b.bottom)
-    x1, y1 = min(x1 + margin, b.right), min(y1 + margin, b.top)
-    if x1 <= x0 or y1 <= y0:
+    pts = [line.interpolate(f, normalized=True) for f in np.linspace(0, 1, PROBE_PLACES)]
+    parts = []
+    for p in pts:
+        x0, y0 = max(p.x - margin, b.left), max(p.y - margin, b.bottom)
+        x1, y1 = min(p.x + margin, b.right), min(p.y + margin, b.top)
+        if x1 <= x0 or y1 <= y0:
+            continue
+        win = from_bounds(x0, y0, x1, y1, transform=ds.transform).round_offsets().round_lengths()
+        win = win.intersection(Window(0, 0, ds.width, ds.height))
+        h, w = max(int(win.height), 1), max(int(win.width), 1)
+        k = max(h, w) / PROBE_CELLS
+        shape = (max(int(h / k), 1), max(int(w / k), 1)) if k > 1 else (h, w)
+        band = ds.read(1, window=win, out_shape=shape, masked=True)
+        if ds.nodata is not None:  # decimated reads of mosaics do not always carry the mask
+            data = np.ma.getdata(band)
+            nod = np.isnan(data) if np.isnan(ds.nodata) else data == ds.nodata
+            band = np.ma.MaskedArray(data, mask=np.ma.getmaskarray(band) | nod)
+        parts.append(band.ravel())
+    if not parts:
         return np.ma.masked_all((1, 1))
-    win = from_bounds(x0, y0, x1, y1, transform=ds.transform).round_offsets().round_lengths()
-    win = win.intersection(Window(0, 0, ds.width, ds.height))
-    h, w = max(int(win.height), 1), max(int(win.width), 1)
-    k = max(h, w) / PROBE_CELLS
-    shape = (max(int(h / k), 1), max(int(w / k), 1)) if k > 1 else (h, w)
-    band = ds.read(1, window=win, out_shape=shape, masked=True)
-    if ds.nodata is not None:  # decimated reads of mosaics do not always carry the mask
-        data = np.ma.getdata(band)
-        nod = np.isnan(data) if np.isnan(ds.nodata) else data == ds.nodata
-        band = np.ma.MaskedArray(data, mask=np.ma.getmaskarray(band) | nod)
-    return band
+    return np.ma.concatenate(parts)[None, :]
 
 
 class _RuledDataset:

@@ -243,17 +243,25 @@ def plan_options(
     wanted = ("deficit", "watch") if include_watch else ("deficit",)
     rows = []
     margin = stations["margin"].to_numpy(float)
-    for i in np.flatnonzero(np.isin(stretches.status, wanted)):
-        idx = np.arange(stretches.first[i], stretches.last[i] + 1)
-        idx = idx[np.isfinite(margin[idx])]
+    # every station of every wanted stretch designed in one vectorised call
+    picked = [i for i in np.flatnonzero(np.isin(stretches.status, wanted))]
+    members = [np.arange(stretches.first[i], stretches.last[i] + 1) for i in picked]
+    members = [idx[np.isfinite(margin[idx])] for idx in members]
+    every = np.concatenate(members) if members else np.array([], int)
+    if every.size == 0:
+        return pd.DataFrame(columns=list(OPTION_COLUMNS))
+    targets = np.concatenate([np.full(idx.size, 0.0 if stretches.status[i] == "deficit"
+                                      else watch_band) for i, idx in zip(picked, members)])
+    all_opts = station_options(_take(cond, every), _take(g, every), target_margin=targets,
+                               berm_above_swl=berm_above_swl, fill_settlement=settle[every],
+                               approach=approach)
+    bounds = np.concatenate([[0], np.cumsum([idx.size for idx in members])])
+    for k, (i, idx) in enumerate(zip(picked, members)):
         if idx.size == 0:
             continue
         status = stretches.status[i]
-        tgt = 0.0 if status == "deficit" else watch_band
-        opts = station_options(_take(cond, idx), _take(g, idx),
-                               target_margin=np.full(idx.size, tgt),
-                               berm_above_swl=berm_above_swl, fill_settlement=settle[idx],
-                               approach=approach)
+        part = slice(bounds[k], bounds[k + 1])
+        opts = {name: {key: v[part] for key, v in o.items()} for name, o in all_opts.items()}
         length = float(stretches.to_chainage[i] - stretches.from_chainage[i])
         worst = int(np.argmin(margin[idx]))
         base = {"from_chainage": float(stretches.from_chainage[i]),

@@ -14,6 +14,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 from openpyxl import Workbook
+from openpyxl.cell import WriteOnlyCell
 from openpyxl.styles import Font, PatternFill
 from openpyxl.utils import get_column_letter
 
@@ -35,57 +36,62 @@ def _units(layer: str) -> dict[str, str]:
 
 def _cell(v):
     if isinstance(v, (float, np.floating)):
-        return None if not np.isfinite(v) else float(v)
+        # 4 decimals, as in the CSV (mm and better for levels; no per-cell number format)
+        return None if not np.isfinite(v) else round(float(v), 4)
     if isinstance(v, np.integer):
         return int(v)
     return v
 
 
 def _sheet(wb: Workbook, title: str, df: pd.DataFrame, units: dict[str, str],
-           caution: str) -> None:
+           caution: str, *, bold_rows: np.ndarray | None = None,
+           mark: tuple[str, str] | None = None) -> None:
+    """One data sheet, streamed row by row (openpyxl write-only mode: fast on long lines).
+
+    ``bold_rows`` marks rows to set in bold; ``mark`` = (column, text) is appended
+    to that column's value on those rows.
+    """
     ws = wb.create_sheet(title)
-    ws.append([caution])
-    ws["A1"].font = Font(bold=True, color="A6103C")
-    ws.append(list(df.columns))
-    ws.append([units.get(c, "") for c in df.columns])
-    for cell in ws[2]:
-        cell.font = Font(bold=True)
-    for cell in ws[3]:
-        cell.font = Font(italic=True)
-    for row in df.itertuples(index=False):
-        ws.append([_cell(v) for v in row])
-    ws.freeze_panes = ws.cell(row=FIRST_DATA_ROW, column=2)
-    fills = {s: PatternFill("solid", fgColor=c.lstrip("#")) for s, c in STATUS_COLOURS.items()}
-    if "status" in df.columns:
-        col = list(df.columns).index("status") + 1
-        light = {"watch", "no_data"}
-        for r in range(FIRST_DATA_ROW, FIRST_DATA_ROW + len(df)):
-            cell = ws.cell(row=r, column=col)
-            if cell.value in fills:
-                cell.fill = fills[cell.value]
-                cell.font = Font(color="000000" if cell.value in light else "FFFFFF")
+    ws.freeze_panes = f"B{FIRST_DATA_ROW}"
     for j, c in enumerate(df.columns, start=1):
         ws.column_dimensions[get_column_letter(j)].width = max(10, min(28, len(c) + 2))
-        if pd.api.types.is_float_dtype(df[c]):
-            for r in range(FIRST_DATA_ROW, FIRST_DATA_ROW + len(df)):
-                ws.cell(row=r, column=j).number_format = "0.000"
+    ws.append([_styled(ws, caution, Font(bold=True, color="A6103C"))])
+    ws.append([_styled(ws, c, _BOLD) for c in df.columns])
+    ws.append([_styled(ws, units.get(c, ""), _ITALIC) for c in df.columns])
+    cols = list(df.columns)
+    status_col = cols.index("status") if "status" in cols else -1
+    mark_col = cols.index(mark[0]) if mark and mark[0] in cols else -1
+    fills = {k: PatternFill("solid", fgColor=c.lstrip("#")) for k, c in STATUS_COLOURS.items()}
+    light = {"watch", "no_data"}
+    for k, row in enumerate(df.itertuples(index=False)):
+        vals = [_cell(v) for v in row]
+        bold = bool(bold_rows is not None and bold_rows[k])
+        if bold and mark_col >= 0:
+            vals[mark_col] = f"{vals[mark_col]} {mark[1]}"
+        out = []
+        for j, v in enumerate(vals):
+            if j == status_col and v in fills:
+                c = WriteOnlyCell(ws, value=v)
+                c.fill = fills[v]
+                c.font = Font(color="000000" if v in light else "FFFFFF", bold=bold)
+                out.append(c)
+            else:
+                out.append(_styled(ws, v, _BOLD) if bold else v)
+        ws.append(out)
+
+
+_BOLD = Font(bold=True)
+_ITALIC = Font(italic=True)
+
+
+def _styled(ws, value, font: Font) -> WriteOnlyCell:
+    c = WriteOnlyCell(ws, value=value)
+    c.font = font
+    return c
 
 
 #: mark of the cheapest option on the options sheet (beside the 1 of `cheapest`)
 CHEAPEST_MARK = "\u2605 cheapest"
-
-
-def _mark_cheapest(ws, df: pd.DataFrame) -> None:
-    if "cheapest" not in df.columns:
-        return
-    col = list(df.columns).index("option") + 1
-    for k, flag in enumerate(df["cheapest"].to_numpy()):
-        if int(flag):
-            r = FIRST_DATA_ROW + k
-            for cell in ws[r]:
-                cell.font = Font(bold=True)
-            c = ws.cell(row=r, column=col)
-            c.value = f"{c.value} {CHEAPEST_MARK}"
 
 
 def write_workbook(stations: pd.DataFrame, stretches: pd.DataFrame, metadata: dict,
@@ -95,15 +101,16 @@ def write_workbook(stations: pd.DataFrame, stretches: pd.DataFrame, metadata: di
     ``options`` (options layer's fields; the sheet is left out when None) and metadata."""
     from .report_remedies import CAVEAT, COST_NOTE
 
-    wb = Workbook()
-    wb.remove(wb.active)
+    wb = Workbook(write_only=True)
     _sheet(wb, "stations", stations, _units("stations"), CAUTION)
     _sheet(wb, "stretches", stretches, _units("stretches"),
            CAUTION + " Fill volumes are estimates (method in the README).")
     if options is not None:
+        cheapest = (options["cheapest"].to_numpy().astype(int) > 0
+                    if "cheapest" in options.columns else None)
         _sheet(wb, "options", options, _units("options"),
-               f"{CAUTION} Reinforcement options: {CAVEAT} {COST_NOTE}")
-        _mark_cheapest(wb["options"], options)
+               f"{CAUTION} Reinforcement options: {CAVEAT} {COST_NOTE}",
+               bold_rows=cheapest, mark=("option", CHEAPEST_MARK))
     meta = pd.DataFrame({"key": list(metadata), "value": [str(v) for v in metadata.values()]})
     _sheet(wb, "run", meta, {}, CAUTION)
     with atomic_path(path, overwrite=overwrite) as tmp:
