@@ -60,6 +60,13 @@ def assess(parameters: dict) -> dict:
     return {"result": {k: _value(v) for k, v in result.items()}, "progress": progress}
 
 
+def report(parameters: dict) -> dict:
+    import processing
+
+    result = processing.run("trajectory:crest_report", parameters)
+    return {"result": {k: _value(v) for k, v in result.items()}}
+
+
 def cancel(parameters: dict) -> dict:
     """Cancel through the feedback object as soon as the first progress arrives."""
     import processing
@@ -127,6 +134,8 @@ def main(argv: list[str]) -> int:
         register()
         if cmd == "params":
             answer = params()
+        elif cmd == "report":
+            answer = report(json.loads(argv[1]))
         elif cmd == "assess":
             answer = assess(json.loads(argv[1]))
         elif cmd == "cancel":

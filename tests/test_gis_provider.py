@@ -231,7 +231,7 @@ def test_plugin_zip_builds_and_metadata_parses(tmp_path):
 def test_plugin_zip_loads_in_host(qgis_python, tmp_path):
     path = _build_zip(tmp_path)
     answer = _drive(qgis_python, "plugin", str(path))
-    assert answer["algorithms"] == ["trajectory:crest_assess"]
+    assert answer["algorithms"] == ["trajectory:crest_assess", "trajectory:crest_report"]
     # the zip's own engine is used, not the checkout's
     assert answer["engine"].startswith(answer["plugin_dir"])
     assert answer["unloaded"] is True
@@ -254,3 +254,17 @@ def test_library_cancellation_from_progress_callback_writes_nothing(demo, tmp_pa
                tmp_path / "r.gpkg", Settings(chunk_size=8), progress=progress)
     assert calls and calls[0][0] < calls[0][1]
     assert list(tmp_path.iterdir()) == []
+
+
+def test_report_algorithm_writes_the_same_page_as_the_cli(qgis_python, demo_result, tmp_path):
+    # the GIS report algorithm is the CLI's `trajectory report`: same page, same numbers
+    _, gpkg = demo_result
+    out = tmp_path / "gis_report.html"
+    answer = _drive(qgis_python, "report", json.dumps({"results": str(gpkg), "out": str(out)}))
+    assert Path(answer["result"]["out"]) == out
+    cli = tmp_path / "cli_report.html"
+    res = CliRunner().invoke(main, ["report", str(gpkg), "--out", str(cli), "--quiet"])
+    assert res.exit_code == 0, res.output
+    gis_html, cli_html = out.read_text(), cli.read_text()
+    assert "qualified engineer" in gis_html
+    assert gis_html.count("data:image/png;base64") == cli_html.count("data:image/png;base64")

@@ -12,6 +12,7 @@ from qgis.core import (
     QgsProcessingException,
     QgsProcessingOutputNumber,
     QgsProcessingParameterFeatureSource,
+    QgsProcessingParameterFile,
     QgsProcessingParameterFileDestination,
     QgsProcessingParameterRasterLayer,
     QgsProcessingUtils,
@@ -139,3 +140,50 @@ class CrestAssessAlgorithm(QgsProcessingAlgorithm):
             details = QgsProcessingContext.LayerDetails(
                 f"{stem} {name}", project, self.OUT, QgsProcessingUtils.LayerHint.Vector)
             context.addLayerToLoadOnCompletion(f"{out}|layername={name}", details)
+
+
+class CrestReportAlgorithm(QgsProcessingAlgorithm):
+    """The HTML report of a results GeoPackage (the CLI's ``trajectory report``)."""
+
+    RESULTS = "results"
+    OUT = "out"
+
+    def name(self) -> str:
+        return "crest_report"
+
+    def displayName(self) -> str:
+        return "Report of a levee crest assessment"
+
+    def group(self) -> str:
+        return "Levee crest screening"
+
+    def groupId(self) -> str:
+        return "screening"
+
+    def shortHelpString(self) -> str:
+        return ("Writes the self-contained HTML report (summary, longitudinal plot, map, "
+                "worst cross-sections, uncertainty, surveys, reinforcement options) of a "
+                "results GeoPackage written by <i>Assess levee crest levels</i>. The same as "
+                "the command line <tt>trajectory report</tt>."
+                f"<p><i>{CAUTION}</i></p>")
+
+    def createInstance(self) -> CrestReportAlgorithm:
+        return CrestReportAlgorithm()
+
+    def initAlgorithm(self, config=None) -> None:
+        self.addParameter(QgsProcessingParameterFile(
+            self.RESULTS, "Results GeoPackage", extension="gpkg"))
+        self.addParameter(QgsProcessingParameterFileDestination(
+            self.OUT, "Report (HTML)", "HTML (*.html)"))
+
+    def processAlgorithm(self, parameters, context, feedback) -> dict:
+        from ..outputs.report import write_report
+
+        results = self.parameterAsFile(parameters, self.RESULTS, context)
+        out = self.parameterAsFileOutput(parameters, self.OUT, context)
+        try:
+            write_report(results, out, overwrite=True)
+        except TrajectoryError as exc:
+            raise QgsProcessingException(str(exc)) from exc
+        feedback.pushInfo(CAUTION)
+        return {self.OUT: out}

@@ -6,7 +6,7 @@ from qgis.core import QgsProcessingProvider
 
 from .. import __version__
 from . import PROVIDER_ID
-from .algorithms import CrestAssessAlgorithm
+from .algorithms import CrestAssessAlgorithm, CrestReportAlgorithm
 
 
 class TrajectoryProvider(QgsProcessingProvider):
@@ -26,3 +26,4 @@ class TrajectoryProvider(QgsProcessingProvider):
 
     def loadAlgorithms(self) -> None:
         self.addAlgorithm(CrestAssessAlgorithm())
+        self.addAlgorithm(CrestReportAlgorithm())
