@@ -38,7 +38,7 @@ from .faults import (
 from .execution import EXECUTION_FIELDS, geopackage_write_options, make_executor, run_time
 from .lines import Centreline, read_centrelines, read_line_conditions, stack_stretches
 from .params import Settings
-from .profile import FLAGS, flag_text, read_profiles
+from .profile import FLAGS, ProfileMetrics, flag_text, read_profiles
 from .profile_conditions import outer_characteristic_slope
 from .requirement import (
     STATION_COLUMNS, StationConditions, profile_berm, required_level, station_conditions,
@@ -118,8 +118,8 @@ def _dataset(path: str) -> rasterio.io.DatasetReader:
     return ds
 
 
-def _assess_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
-    """Sample, read and judge the profiles of one chunk of stations."""
+def _read_chunk(chunk: _Chunk) -> tuple[np.ndarray, ProfileMetrics]:
+    """Sample the sections of one chunk and read their profiles."""
     s = chunk.settings
     # GDAL's block cache is bounded per process, so memory does not grow with the line;
     # the reading rules turn DEM values into levels (fill values, vertical unit)
@@ -131,6 +131,18 @@ def _assess_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
     prof = read_profiles(z, chunk.offsets, object_width=s.object_width,
                          crest_search=s.crest_search, crest_tolerance=s.crest_tolerance,
                          max_nodata=s.max_nodata)
+    return z, prof
+
+
+def _crest_chunk(chunk: _Chunk) -> np.ndarray:
+    """The crest levels of one chunk alone (an earlier survey needs nothing more)."""
+    return _read_chunk(chunk)[1].crest_level
+
+
+def _assess_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
+    """Sample, read and judge the profiles of one chunk of stations."""
+    s = chunk.settings
+    z, prof = _read_chunk(chunk)
     # the characteristic outer slope (EurOtop 2018, composite slopes) drives the freeboard
     tan_c, extrapolated = outer_characteristic_slope(z, chunk.offsets, prof, chunk.conditions,
                                                      object_width=s.object_width,
@@ -146,7 +158,8 @@ def _assess_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
     out["margin"] = margin
     out["characteristic_slope"] = 1.0 / tan_c
     # survey accuracy carried through to the margin; optional Monte Carlo (uncertainty.py)
-    ds, acc = _dataset(chunk.dem_path), accuracy_from_settings(s)
+    ds = with_rules(_dataset(chunk.dem_path), chunk.dem_reading)  # levels, as sampled
+    acc = accuracy_from_settings(s)
     out.update(station_uncertainty(
         prof, chunk.conditions, margin=margin, accuracy=acc, cell=abs(ds.res[0]),
         step=float(chunk.offsets[1] - chunk.offsets[0]), crest_tolerance=s.crest_tolerance,
@@ -161,7 +174,7 @@ def _one_station(chunk: _Chunk, i: int) -> _Chunk:
     """The chunk of station ``i`` alone (to narrow down a read failure)."""
     sl = slice(i, i + 1)
     return dataclasses.replace(chunk, stations=chunk.stations.take(sl), side=chunk.side[sl],
-                               conditions=_take(chunk.conditions, sl))
+                               conditions=chunk.conditions.take(sl))
 
 
 def _chunks(n: int, size: int) -> list[slice]:
@@ -179,12 +192,6 @@ def _map(fn: Callable, items: list, settings: Settings) -> Iterator:
 def _gather_conditions(cond: Conditions, idx: np.ndarray,
                        chainage: np.ndarray) -> StationConditions:
     return station_conditions(cond.table, idx, chainage)
-
-
-def _take(cond: StationConditions, sl: slice) -> StationConditions:
-    """The conditions of stations ``sl`` (optional fields that are None stay None)."""
-    return StationConditions(**{f: None if getattr(cond, f) is None else getattr(cond, f)[sl]
-                                for f in cond.__dataclass_fields__})
 
 
 def _water_side(cond: Conditions, idx: np.ndarray, default: str) -> np.ndarray:
@@ -282,7 +289,7 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
     # sample and interpret the cross-sections chunk by chunk
     slices = _chunks(len(st), s.chunk_size)
     gathered = _gather_conditions(cond, sec, st.chainage)
-    tasks = [_Chunk(dem.path, st.take(sl), side[sl], _take(gathered, sl), offsets, s, reading)
+    tasks = [_Chunk(dem.path, st.take(sl), side[sl], gathered.take(sl), offsets, s, reading)
              for sl in slices]
     got: list[dict[str, np.ndarray] | ChunkFailure] = []
     done = 0
@@ -405,8 +412,7 @@ def _epoch_levels(inputs: RunInputs, tasks: list[_Chunk], table: pd.DataFrame, c
             continue
         log.info("reading survey %s (%s)", e.label, e.path)
         again = [dataclasses.replace(t, dem_path=e.path) for t in tasks]
-        columns.append(np.concatenate([p["crest_level"] for p in
-                                       _map(_assess_chunk, again, s)]))
+        columns.append(np.concatenate(list(_map(_crest_chunk, again, s))))
     labels = (*(e.label for e in inputs.earlier), inputs.dem_date or "")
     years = (check_order(labels, [*(e.path for e in inputs.earlier), inputs.dem])
              if inputs.earlier else np.array([np.nan]))

@@ -475,6 +475,25 @@ def gamma_beta_runup(beta_deg: ArrayLike) -> FloatOrArray:
     return _gamma_beta(beta_deg, 0.0022)
 
 
+#: lower bound of the berm influence factor gamma_b (EurOtop 2018, from memory)
+GAMMA_B_MIN = 0.6
+
+
+def berm_depth_factor(berm_depth: ArrayLike, hm0: ArrayLike, *,
+                      runup: ArrayLike | None = None) -> NDArray[np.float64]:
+    """Depth term rdb of the berm factor, EurOtop (2018) (from memory).
+
+    ``rdb = 0.5 - 0.5 cos(pi db / x)`` for ``|db| < x``, else 1 (no influence),
+    with ``x = 2 Hm0`` for a berm at or below still water (``db >= 0``) and
+    ``x = Ru2%`` above it (``2 Hm0`` when ``runup`` is not given). Hm0 = 0 gives 1.
+    """
+    db, h = _arr(berm_depth), _arr(hm0)
+    x = np.where(db > 0.0, 2.0 * h, 2.0 * h if runup is None else _arr(runup))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio = np.abs(db) / x
+        return np.where(ratio < 1.0, 0.5 - 0.5 * np.cos(math.pi * ratio), 1.0)
+
+
 def gamma_berm(
     berm_width: ArrayLike,
     berm_depth: ArrayLike,
@@ -523,21 +542,14 @@ def gamma_berm(
     _require("tm10", t, lower=0.0, strict=True)
     _require("tan_alpha_lower", tl, lower=0.0, strict=True)
     _require("tan_alpha_upper", tu, lower=0.0, strict=True)
-    x_below = 2.0 * h
-    if runup is None:
-        x_above = x_below
-    else:
-        x_above = _arr(runup)
-        _require("runup", x_above, lower=0.0, strict=False)
-    x = np.where(db > 0.0, x_below, x_above)
+    if runup is not None:
+        _require("runup", _arr(runup), lower=0.0, strict=False)
     l_berm = h / tl + bw + h / tu
     with np.errstate(divide="ignore", invalid="ignore"):
         r_b = np.where(l_berm > 0.0, bw / l_berm, 0.0)
-        ratio = np.abs(db) / x
-    with np.errstate(invalid="ignore"):  # Hm0 = 0 gives 0/0: no berm influence (1 below)
-        r_db = np.where(ratio < 1.0, 0.5 - 0.5 * np.cos(math.pi * ratio), 1.0)
+    r_db = berm_depth_factor(db, h, runup=runup)
     gb = 1.0 - r_b * (1.0 - r_db)
-    gb = np.where(h > 0.0, np.clip(gb, 0.6, 1.0), 1.0)
+    gb = np.where(h > 0.0, np.clip(gb, GAMMA_B_MIN, 1.0), 1.0)
     return _out(gb)
 
 

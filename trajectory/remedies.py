@@ -40,12 +40,11 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
+from . import hydraulics as hy
 from .requirement import StationConditions, required_level
 
 #: option names (the public values of the `option` field)
 OPTIONS = ("raise", "outer_berm", "combined")
-#: lower bound of the berm factor (EurOtop 2018, from memory)
-GAMMA_B_MIN = 0.6
 #: widths tried by the combined option's search
 SEARCH_POINTS = 121
 
@@ -104,28 +103,22 @@ def outline(g: Geometry, i: int, *, crest_raise: float = 0.0, berm_width: float 
     return np.asarray(xs), np.asarray(zs)
 
 
-def largest_effective_berm(cond: StationConditions, g: Geometry,
-                           berm_level: np.ndarray) -> np.ndarray:
+def largest_effective_berm(cond: StationConditions, g: Geometry, berm_level: np.ndarray,
+                           *, approach: str = "design") -> np.ndarray:
     """Berm width (m) at which gamma_b reaches its lower bound 0.6 (EurOtop 2018).
 
     With rB = B / (B + Hm0 (n_below + n_above)) and gamma_b = 1 - rB (1 - rdb),
     solving gamma_b = 0.6 gives rB = 0.4 / (1 - rdb), i.e.
-    B = rB Hm0 (n_below + n_above) / (1 - rB); rdb is taken from the factor at
-    an infinitesimal width (it does not depend on B).
+    B = rB Hm0 (n_below + n_above) / (1 - rB); rdb (hydraulics.berm_depth_factor,
+    with the 2 % run-up of the run's approach above still water) does not depend on B.
     """
-    from . import hydraulics as hy
-
     swl = cond.water_level + cond.sea_level_rise
     n = g.outer_slope
     ru = hy.runup_2pct(cond.hm0, cond.tm10, 1.0 / n, gamma_f=cond.roughness,
-                       gamma_beta=hy.gamma_beta_runup(cond.wave_angle))
-    db = swl - berm_level
-    x = np.where(db > 0, 2.0 * cond.hm0, ru)
+                       gamma_beta=hy.gamma_beta_runup(cond.wave_angle), approach=approach)
+    rdb = hy.berm_depth_factor(swl - berm_level, cond.hm0, runup=ru)
     with np.errstate(divide="ignore", invalid="ignore"):
-        ratio = np.abs(db) / x
-    rdb = np.where(ratio < 1.0, 0.5 - 0.5 * np.cos(np.pi * ratio), 1.0)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        r_b = np.clip((1.0 - GAMMA_B_MIN) / (1.0 - rdb), 0.0, 0.999)
+        r_b = np.clip((1.0 - hy.GAMMA_B_MIN) / (1.0 - rdb), 0.0, 0.999)
         b = r_b * cond.hm0 * 2.0 * n / (1.0 - r_b)
     return np.where(rdb < 1.0, b, 0.0)
 
@@ -179,7 +172,7 @@ def station_options(
         "closes_gap": np.ones(n, bool), "remaining": zero}}
 
     # outer berm: bisection on the width (required level falls as the berm widens)
-    b_max = np.nan_to_num(largest_effective_berm(cond, g, lb))
+    b_max = np.nan_to_num(largest_effective_berm(cond, g, lb, approach=approach))
     req_max, gb_max = _required(cond, g, b_max, lb, approach)
     closes = (req_max <= target + 1e-9) | (short <= 0)
     lo, hi = zero.copy(), b_max.copy()
@@ -252,7 +245,7 @@ def plan_options(
         return pd.DataFrame(columns=list(OPTION_COLUMNS))
     targets = np.concatenate([np.full(idx.size, 0.0 if stretches.status[i] == "deficit"
                                       else watch_band) for i, idx in zip(picked, members)])
-    all_opts = station_options(_take(cond, every), _take(g, every), target_margin=targets,
+    all_opts = station_options(cond.take(every), _take(g, every), target_margin=targets,
                                berm_above_swl=berm_above_swl, fill_settlement=settle[every],
                                approach=approach)
     bounds = np.concatenate([[0], np.cumsum([idx.size for idx in members])])

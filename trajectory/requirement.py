@@ -83,6 +83,12 @@ class StationConditions:
     upstream_share: np.ndarray | None = None   # 0..1 of the 0.5 ft, 'cfr_riverine'
     period_from_tp: np.ndarray | None = None   # bool: tm10 derived as Tp / 1.1
 
+    def take(self, idx: np.ndarray | slice) -> StationConditions:
+        """The conditions of stations ``idx`` (optional fields that are None stay None)."""
+        return StationConditions(**{f: None if getattr(self, f) is None else
+                                    np.asarray(getattr(self, f))[idx]
+                                    for f in self.__dataclass_fields__})
+
 
 @dataclass(frozen=True)
 class Requirement:
@@ -200,7 +206,7 @@ def required_level(
         g_b = np.where(has, _full(hy.gamma_berm(np.where(has, bw, 0.0), db, h, t, ta, ta,
                                                 runup=ru0), n), 1.0)
         with np.errstate(invalid="ignore"):
-            berm_flag = has & waves & ((g_b <= 0.6 + 1e-12)
+            berm_flag = has & waves & ((g_b <= hy.GAMMA_B_MIN + 1e-12)
                                        | (bw > 0.25 * np.asarray(hy.wavelength_deep(t))))
     q_allow = _full(cond.q_allow, n) / LPS_PER_M3S
     qa = np.where(np.isfinite(q_allow) & (q_allow > 0), q_allow, 1.0)

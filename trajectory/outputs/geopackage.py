@@ -69,22 +69,26 @@ def crest_line_layer(result) -> gpd.GeoDataFrame:
                   geoms, result.crs)
 
 
-def stretch_layer(result, *, start: float, reverse: bool) -> gpd.GeoDataFrame:
-    s = result.stretches
+def _pieces_along(result, ids: np.ndarray, from_ch: np.ndarray, to_ch: np.ndarray, *,
+                  start: float, reverse: bool) -> list:
+    """The part of each row's line between its two chainages (rows of several lines)."""
     lines = result.lines or {"": result.line}
-    ids = _line_ids(result)[s.first] if len(s.first) else np.array([], object)
-
-    def along(c, length):
-        d = c - start
-        return length - d if reverse else d
-
+    from_ch, to_ch = np.asarray(from_ch, float), np.asarray(to_ch, float)
     geoms = np.empty(len(ids), dtype=object)
     for lid, line in lines.items():
         k = np.flatnonzero(ids == lid)
-        a = along(s.from_chainage[k], line.length)
-        b = along(s.to_chainage[k], line.length)
+        a, b = from_ch[k] - start, to_ch[k] - start
+        if reverse:
+            a, b = line.length - a, line.length - b
         geoms[k] = line_substrings(line, np.minimum(a, b), np.maximum(a, b))
-    return _frame(_stretch_data(result), "stretches", geoms, result.crs)
+    return list(geoms)
+
+
+def stretch_layer(result, *, start: float, reverse: bool) -> gpd.GeoDataFrame:
+    data = _stretch_data(result)
+    geoms = _pieces_along(result, data["line_id"], data["from_chainage"], data["to_chainage"],
+                          start=start, reverse=reverse)
+    return _frame(data, "stretches", geoms, result.crs)
 
 
 def _stretch_data(result) -> dict[str, np.ndarray]:
@@ -125,18 +129,10 @@ def option_layer(result, *, start: float, reverse: bool) -> gpd.GeoDataFrame:
     cols = field_names("options")
     if opt is None or opt.empty:
         return gpd.GeoDataFrame({c: [] for c in cols}, geometry=[], crs=result.crs)
-    lines = result.lines or {"": result.line}
-    ids = opt["line_id"].to_numpy(object)
-    geoms = np.empty(len(opt), dtype=object)
-    for lid, line in lines.items():
-        k = np.flatnonzero(ids == lid)
-        a = opt["from_chainage"].to_numpy(float)[k] - start
-        b = opt["to_chainage"].to_numpy(float)[k] - start
-        if reverse:
-            a, b = line.length - a, line.length - b
-        geoms[k] = line_substrings(line, np.minimum(a, b), np.maximum(a, b))
+    geoms = _pieces_along(result, opt["line_id"].to_numpy(object), opt["from_chainage"],
+                          opt["to_chainage"], start=start, reverse=reverse)
     data = option_frame(result)
-    return _frame({c: data[c].to_numpy() for c in cols}, "options", list(geoms), result.crs)
+    return _frame({c: data[c].to_numpy() for c in cols}, "options", geoms, result.crs)
 
 
 def option_frame(result) -> pd.DataFrame:
