@@ -212,3 +212,44 @@ def test_same_inputs_same_outputs(tiled, tmp_path):
     for layer in ("stations", "cross_sections", "crest_line", "stretches"):
         pd.testing.assert_frame_equal(pyogrio.read_dataframe(tmp_path / "a.gpkg", layer=layer),
                                       pyogrio.read_dataframe(tmp_path / "b.gpkg", layer=layer))
+
+
+# ------------------------------------------------------------- outputs as one set
+def test_staged_outputs_are_renamed_together_or_not_at_all(tmp_path):
+    from trajectory.outputs.atomic import atomic_path, staged
+
+    a, b = tmp_path / "r.gpkg", tmp_path / "r.csv"
+    a.write_text("old gpkg")
+    b.write_text("old csv")
+    with pytest.raises(RuntimeError, match="disk full"):
+        with staged([a, b], overwrite=True) as tmp:
+            tmp[a].write_text("new gpkg")
+            raise RuntimeError("disk full")   # the table was never written
+    # neither file changed and no temporary is left
+    assert (a.read_text(), b.read_text()) == ("old gpkg", "old csv")
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["r.csv", "r.gpkg"]
+    with staged([a, b], overwrite=True) as tmp:
+        tmp[a].write_text("new gpkg")
+        # a writer that stages on its own writes a staged temporary in place
+        with atomic_path(tmp[b], overwrite=True) as t:
+            assert t == tmp[b]
+            t.write_text("new csv")
+        assert a.read_text() == "old gpkg"    # nothing renamed before the set is complete
+    assert (a.read_text(), b.read_text()) == ("new gpkg", "new csv")
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["r.csv", "r.gpkg"]
+
+
+def test_writers_side_by_side_run_in_another_process_and_raise_its_errors():
+    from trajectory.errors import InputError
+    from trajectory.execution import side_by_side
+
+    def fail() -> None:
+        raise InputError("row 7 of sections.csv: hm0 is negative")
+
+    pids = side_by_side([os.getpid, os.getpid], parallel=True)
+    assert pids[1] == os.getpid() and pids[0] != os.getpid()
+    assert side_by_side([os.getpid, os.getpid], parallel=False) == [os.getpid()] * 2
+    with pytest.raises(InputError, match="row 7 of sections.csv"):
+        side_by_side([fail, os.getpid], parallel=True)
+    with pytest.raises(InputError, match="row 7"):
+        side_by_side([os.getpid, fail], parallel=True)

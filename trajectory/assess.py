@@ -35,7 +35,9 @@ from .faults import (
     blank_stations, failure_runs, fill_failures, incomplete_text, off_dem, part_size,
     report_off_dem,
 )
-from .execution import EXECUTION_FIELDS, geopackage_write_options, make_executor, run_time
+from .execution import (
+    EXECUTION_FIELDS, geopackage_write_options, make_executor, run_time, side_by_side,
+)
 from .lines import Centreline, read_centrelines, read_line_conditions, stack_stretches
 from .params import Settings
 from .profile import FLAGS, ProfileMetrics, flag_text, read_profiles
@@ -540,24 +542,41 @@ def assess(inputs: RunInputs, out: str | Path, settings: Settings | None = None,
            overwrite: bool = False, table: str | Path | None = None,
            progress: ProgressCallback | None = None,
            report: str | Path | None = None) -> Result:
-    """Assess one levee line; write the GeoPackage, the deficit tables (CSV, XLSX), a report."""
+    """Assess the levee line(s); write the GeoPackage, the deficit tables (CSV, XLSX), a report.
+
+    The files are written under temporary names and renamed into place together
+    once all are complete, so the GeoPackage and the tables always come from the
+    same run. On a run with several workers the GeoPackage is written side by
+    side with the tables.
+    """
     from .outputs import refuse_overwrite, write_deficit_table, write_geopackage
-    from .outputs.style import sld_paths
+    from .outputs.atomic import staged
+    from .outputs.style import sld_paths, write_slds
     from .outputs.table import stretch_table_path, write_stretch_table
     from .outputs.workbook import write_result_workbook
 
+    s = settings or Settings()
     out = Path(out)
     table = Path(table) if table else out.with_suffix(".csv")
-    extra = [stretch_table_path(table), table.with_suffix(".xlsx"), *sld_paths(out).values()]
-    for p in (out, table, *extra, *([Path(report)] if report else [])):
+    slds = sld_paths(out)
+    files = [out, table, stretch_table_path(table), table.with_suffix(".xlsx"), *slds.values()]
+    for p in (*files, *([Path(report)] if report else [])):
         refuse_overwrite(p, overwrite=overwrite)
-    result = run(inputs, settings, progress=progress)
-    # time stamps pinned to the run time (reruns compare byte for byte), no per-step sync
-    with geopackage_write_options(result.metadata["run_time"]):
-        write_geopackage(result, out, overwrite=overwrite)
-    write_deficit_table(result, table, overwrite=overwrite)
-    write_stretch_table(result, stretch_table_path(table), overwrite=overwrite)
-    write_result_workbook(result, table.with_suffix(".xlsx"), overwrite=overwrite)
+    result = run(inputs, s, progress=progress)
+    parallel = s.workers != 1 and not s.scheduler and (os.cpu_count() or 1) > 1
+    with staged(files, overwrite=overwrite) as tmp:
+        def geopackage() -> None:
+            # time stamps pinned to the run time (reruns compare byte for byte)
+            with geopackage_write_options(result.metadata["run_time"]):
+                write_geopackage(result, tmp[out], overwrite=True, styles=False)
+
+        def tables() -> None:
+            write_deficit_table(result, tmp[table], overwrite=True)
+            write_stretch_table(result, tmp[stretch_table_path(table)], overwrite=True)
+            write_result_workbook(result, tmp[table.with_suffix(".xlsx")], overwrite=True)
+            write_slds({layer: tmp[p] for layer, p in slds.items()}, overwrite=True)
+
+        side_by_side([geopackage, tables], parallel=parallel)
     if report:
         from .outputs.report import write_report
         write_report(out, report, overwrite=overwrite)

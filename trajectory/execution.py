@@ -136,9 +136,80 @@ def _pool_context() -> multiprocessing.context.BaseContext:
     platform has one, else they are spawned.
     """
     methods = multiprocessing.get_all_start_methods()
-    if sys.platform.startswith("linux") and threading.active_count() == 1:
+    if fork_is_safe():
         return multiprocessing.get_context("fork")
     return multiprocessing.get_context("forkserver" if "forkserver" in methods else "spawn")
+
+
+def fork_is_safe() -> bool:
+    """True where a task can run in a forked copy of this process (Linux, no other thread)."""
+    return sys.platform.startswith("linux") and threading.active_count() == 1
+
+
+class Forked:
+    """``fn()`` running in a forked copy of this process; :meth:`result` waits for it.
+
+    The child inherits the caller's memory (nothing is pickled on the way in); its
+    return value must be picklable, and an exception it raises is raised again by
+    :meth:`result`. Used to write independent output files side by side.
+    """
+
+    def __init__(self, fn: Callable[[], Any]):
+        ctx = multiprocessing.get_context("fork")
+        self._recv, send = ctx.Pipe(duplex=False)
+        self._proc = ctx.Process(target=_forked_main, args=(fn, send), daemon=True)
+        self._proc.start()
+        send.close()
+
+    def result(self) -> Any:
+        try:
+            ok, value = self._recv.recv()
+        except EOFError:
+            self._proc.join()
+            raise RuntimeError(f"a writer process ended without a result "
+                               f"(exit code {self._proc.exitcode})") from None
+        finally:
+            self._recv.close()
+        self._proc.join()
+        if not ok:
+            raise value
+        return value
+
+    def cancel(self) -> None:
+        """Stop the child (after an error or an interrupt in the parent)."""
+        if self._proc.is_alive():
+            self._proc.kill()
+        self._proc.join()
+
+
+def _forked_main(fn: Callable[[], Any], send: Any) -> None:
+    try:
+        out = (True, fn())
+    except BaseException as exc:  # noqa: BLE001 - handed to the parent, raised there
+        out = (False, exc)
+    try:
+        send.send(out)
+    except Exception:  # an unpicklable exception: its text still reaches the parent
+        send.send((False, RuntimeError(f"{type(out[1]).__name__}: {out[1]}")))
+    send.close()
+
+
+def side_by_side(tasks: list[Callable[[], Any]], *, parallel: bool) -> list[Any]:
+    """Run independent ``tasks``; with ``parallel`` all but the last in forked children.
+
+    Results in task order. Falls back to one after the other where forking is not
+    safe. Any error stops the other tasks and is raised.
+    """
+    if not parallel or len(tasks) < 2 or not fork_is_safe():
+        return [t() for t in tasks]
+    children = [Forked(t) for t in tasks[:-1]]
+    try:
+        last = tasks[-1]()
+        return [c.result() for c in children] + [last]
+    except BaseException:
+        for c in children:
+            c.cancel()
+        raise
 
 
 class ProcessExecutor:

@@ -47,6 +47,8 @@ from .requirement import StationConditions, required_level
 OPTIONS = ("raise", "outer_berm", "combined")
 #: widths tried by the combined option's search
 SEARCH_POINTS = 121
+#: the berm width is bisected until it is known to this (m)
+WIDTH_TOLERANCE = 1e-4
 
 
 @dataclass(frozen=True)
@@ -176,7 +178,9 @@ def station_options(
     req_max, gb_max = _required(cond, g, b_max, lb, approach)
     closes = (req_max <= target + 1e-9) | (short <= 0)
     lo, hi = zero.copy(), b_max.copy()
-    for _ in range(50):
+    for _ in range(60):   # to a tenth of a millimetre of width (about 20 halvings)
+        if not np.any(hi - lo > WIDTH_TOLERANCE):
+            break
         mid = 0.5 * (lo + hi)
         r_mid, _ = _required(cond, g, mid, lb, approach)
         ok = r_mid <= target

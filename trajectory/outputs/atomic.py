@@ -29,10 +29,13 @@ def atomic_path(path: str | Path, *, overwrite: bool) -> Iterator[Path]:
     on one file system) and is removed if the block fails or is interrupted.
     """
     final = Path(path)
+    if final in _STAGED:  # a temporary of :func:`staged`: written in place, renamed there
+        yield final
+        return
     refuse_overwrite(final, overwrite=overwrite)
     final.parent.mkdir(parents=True, exist_ok=True)
     remove_stale_partials(final)
-    tmp = final.with_name(f".{final.stem}.{os.getpid()}.partial{final.suffix}")
+    tmp = _partial_name(final)
     if tmp.exists():
         tmp.unlink()
     try:
@@ -41,6 +44,45 @@ def atomic_path(path: str | Path, *, overwrite: bool) -> Iterator[Path]:
     finally:
         if tmp.exists():
             tmp.unlink()
+
+
+#: temporaries of the sets being written by :func:`staged` (forked writers inherit it)
+_STAGED: set[Path] = set()
+
+
+def _partial_name(final: Path) -> Path:
+    return final.with_name(f".{final.stem}.{os.getpid()}.partial{final.suffix}")
+
+
+@contextlib.contextmanager
+def staged(paths: list[Path], *, overwrite: bool) -> Iterator[dict[Path, Path]]:
+    """Temporary paths for several outputs, all renamed into place only when all are written.
+
+    Yields ``{final: temporary}``. A failure or an interrupt anywhere in the block
+    removes every temporary and leaves all previous outputs as they were, so a set
+    of outputs (GeoPackage, tables) always comes from one run.
+    """
+    finals = [Path(p) for p in paths]
+    for f in finals:
+        refuse_overwrite(f, overwrite=overwrite)
+    tmps = {}
+    for f in finals:
+        f.parent.mkdir(parents=True, exist_ok=True)
+        remove_stale_partials(f)
+        tmps[f] = _partial_name(f)
+        with contextlib.suppress(FileNotFoundError):
+            tmps[f].unlink()
+    _STAGED.update(tmps.values())
+    try:
+        yield tmps
+        for f, t in tmps.items():
+            os.replace(t, f)
+    finally:
+        _STAGED.difference_update(tmps.values())
+        for t in tmps.values():  # with SQLite's side files of an interrupted GeoPackage
+            for side in ("", "-journal", "-wal", "-shm"):
+                with contextlib.suppress(FileNotFoundError):
+                    t.with_name(t.name + side).unlink()
 
 
 def _alive(pid: int) -> bool:

@@ -19,7 +19,7 @@ from .describe import write_data_columns
 from .epochs_layer import epoch_layer, epoch_stretch_columns
 from .profiles import profile_table, stored_chainages
 from .schema import LAYERS, field_names
-from .style import sld, sld_paths, write_layer_styles
+from .style import sld_paths, write_layer_styles, write_slds
 
 
 def _frame(data: dict, layer: str, geometry, crs) -> gpd.GeoDataFrame:
@@ -160,8 +160,13 @@ def metadata_table(result) -> pd.DataFrame:
     return pd.DataFrame({"key": [k for k, _ in items], "value": [str(v) for _, v in items]})
 
 
-def write_geopackage(result, path: str | Path, *, overwrite: bool = False) -> Path:
-    """Write every contract layer to ``path`` atomically (temp file, then rename)."""
+def write_geopackage(result, path: str | Path, *, overwrite: bool = False,
+                     styles: bool = True) -> Path:
+    """Write every contract layer to ``path`` atomically (temp file, then rename).
+
+    With ``styles`` the SLD files of the styled layers go beside it
+    (:func:`trajectory.outputs.style.sld_paths`).
+    """
     start = float(result.metadata.get("param_start_chainage", 0.0))
     reverse = bool(result.metadata.get("param_reverse", False))
     layers = {
@@ -175,7 +180,7 @@ def write_geopackage(result, path: str | Path, *, overwrite: bool = False) -> Pa
         "section_profiles": section_profile_table(result),
     }
     assert set(layers) == set(LAYERS)
-    slds = sld_paths(path)
+    slds = sld_paths(path) if styles else {}
     for p in slds.values():
         refuse_overwrite(p, overwrite=overwrite)
     with atomic_path(path, overwrite=overwrite) as tmp:
@@ -185,7 +190,5 @@ def write_geopackage(result, path: str | Path, *, overwrite: bool = False) -> Pa
         with contextlib.closing(sqlite3.connect(tmp)) as con, con:
             write_data_columns(con)
             write_layer_styles(con, when=_run_time(result))
-    for layer, p in slds.items():
-        with atomic_path(p, overwrite=overwrite) as tmp:
-            tmp.write_text(sld(layer), encoding="utf-8")
+    write_slds(slds, overwrite=overwrite)
     return Path(path)

@@ -19,6 +19,7 @@ from pathlib import Path
 from xml.sax.saxutils import escape, quoteattr
 
 from ..status import STATUSES
+from .atomic import atomic_path
 
 #: fill colour of each status (hex sRGB)
 STATUS_COLOURS: dict[str, str] = {
@@ -159,3 +160,10 @@ def sld_paths(gpkg: str | Path) -> dict[str, Path]:
     """Where the SLD files of a GeoPackage go: ``<stem>.<layer>.sld`` beside it."""
     g = Path(gpkg)
     return {layer: g.with_name(f"{g.stem}.{layer}.sld") for layer in LAYER_LOOK}
+
+
+def write_slds(paths: dict[str, Path], *, overwrite: bool = False) -> None:
+    """Write the SLD file of each layer in ``paths`` ({layer: path}), each atomically."""
+    for layer, p in paths.items():
+        with atomic_path(p, overwrite=overwrite) as tmp:
+            tmp.write_text(sld(layer), encoding="utf-8")
