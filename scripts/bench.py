@@ -280,6 +280,13 @@ def print_report(rep: dict) -> None:
         print(f"\ncost per km above start-up ({ks[0]:g} -> {ks[-1]:g} km), s/km:")
         for k, v in per_km.items():
             print(f"  {k:>7}: {v:.4f}  ({v / per_km['floor']:.2f} x floor)")
+        fl = per_km["floor"]
+        print(f"per km: serial / floor = {per_km['serial'] / fl:.2f} (target <= 2)")
+        print(f"per km: pool / (floor / {cores}) = {per_km['pool'] / (fl / cores):.2f} "
+              f"(target <= 1.2)")
+        if "naive" in per_km:
+            print(f"per km: naive / serial = {per_km['naive'] / per_km['serial']:.1f} "
+                  f"(target >= 20; read as serial within 2x the floor, the binding one)")
         for k in ("serial", "pool"):
             key = "rss_children_mb" if k == "pool" else "rss_mb"
             print(f"peak memory {k}: {ks[-1]:g} km / {ks[0]:g} km = "

@@ -240,6 +240,7 @@ def plan_options(
     wanted = ("deficit", "watch") if include_watch else ("deficit",)
     rows = []
     margin = stations["margin"].to_numpy(float)
+    chainage = stations["chainage"].to_numpy(float)
     # every station of every wanted stretch designed in one vectorised call
     picked = [i for i in np.flatnonzero(np.isin(stretches.status, wanted))]
     members = [np.arange(stretches.first[i], stretches.last[i] + 1) for i in picked]
@@ -267,7 +268,7 @@ def plan_options(
         for name in OPTIONS:
             o = opts[name]
             rows.append({**base, "basis": "worst_station", "option": name,
-                         "chainage": float(stations["chainage"].iloc[idx[worst]]),
+                         "chainage": float(chainage[idx[worst]]),
                          "crest_raise": o["crest_raise"][worst],
                          "berm_level": o["berm_level"][worst],
                          "berm_width": o["berm_width"][worst],
@@ -294,12 +295,17 @@ def plan_options(
     if df.empty:
         return df
     df["cost"] = df["fill_volume"] * unit_cost if unit_cost > 0 else np.nan
-    # the cheapest option that closes the gap, per stretch and basis
-    df["cheapest"] = False
-    for _, grp in df.groupby(["stretch", "basis"], sort=False):
-        cand = grp[grp["closes_gap"]]
-        if not cand.empty:
-            df.loc[cand["fill_volume"].idxmin(), "cheapest"] = True
+    # the cheapest option that closes the gap, per stretch and basis (the first of equals)
+    closes = df["closes_gap"].to_numpy(bool)
+    order = np.lexsort((np.arange(len(df)), df["fill_volume"].to_numpy(float),
+                        df["basis"].to_numpy(str), df["stretch"].to_numpy(int)))
+    order = order[closes[order]]
+    stretch, basis = df["stretch"].to_numpy(int)[order], df["basis"].to_numpy(str)[order]
+    first = np.ones(order.size, bool)
+    first[1:] = (stretch[1:] != stretch[:-1]) | (basis[1:] != basis[:-1])
+    cheapest = np.zeros(len(df), bool)
+    cheapest[order[first]] = True
+    df["cheapest"] = cheapest
     return df
 
 
