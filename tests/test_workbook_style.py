@@ -10,7 +10,7 @@ from __future__ import annotations
 from openpyxl import load_workbook
 
 from trajectory.outputs.style import STATUS_COLOURS
-from trajectory.outputs.workbook import CAUTION_COLOUR, FIRST_DATA_ROW, write_result_workbook
+from trajectory.outputs.workbook import FIRST_DATA_ROW, write_result_workbook
 
 
 def _rgb(colour) -> str | None:
@@ -26,7 +26,8 @@ def test_every_sheet_has_caution_names_and_units_rows_frozen_above_the_values(de
     wb = _workbook(demo_result)
     for ws in wb.worksheets:
         names = [c.value for c in ws[2]]
-        assert ws["A1"].font.b and _rgb(ws["A1"].font.color) == CAUTION_COLOUR, ws.title
+        # the caution in bold dark red, the deficit colour
+        assert ws["A1"].font.b and _rgb(ws["A1"].font.color) == "A6103C", ws.title
         assert all(c.font.b for c in ws[2]) and all(c.font.i for c in ws[3]), ws.title
         if ws.title != "options":                 # (bold rows there: the next test)
             assert not any(c.font.b or c.font.i for c in ws[FIRST_DATA_ROW]), ws.title

@@ -26,8 +26,8 @@ from .xlsx import Style, Workbook
 FIRST_DATA_ROW = 4
 #: mark of the cheapest option on the options sheet (beside the 1 of `cheapest`)
 CHEAPEST_MARK = "\u2605 cheapest"
-#: font colour of the caution row
-CAUTION_COLOUR = "A6103C"
+#: font colour of the caution row: the deficit colour (A6103C)
+CAUTION_COLOUR = STATUS_COLOURS["deficit"].lstrip("#")
 #: statuses whose fill is light enough for black text (white on the others)
 _LIGHT = frozenset({"watch", "no_data"})
 

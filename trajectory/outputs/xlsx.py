@@ -43,7 +43,7 @@ _CT_BOOK = "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet.ma
 _CT_STYLES = "application/vnd.openxmlformats-officedocument.spreadsheetml.styles+xml"
 _CT_CORE = "application/vnd.openxmlformats-package.core-properties+xml"
 #: rows formatted at once (bounds the memory of long sheets)
-_BLOCK_ROWS = 2048
+_BLOCK_ROWS = 1024
 #: cells above which a sheet is written with zip64 sizes (its XML may pass 4 GiB)
 _ZIP64_CELLS = 5_000_000
 
