@@ -9,23 +9,27 @@ that closes the gap of each stretch and basis is in bold with a star.
 
 from __future__ import annotations
 
+from datetime import datetime
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
-from openpyxl import Workbook
-from openpyxl.cell import WriteOnlyCell
-from openpyxl.styles import Font, PatternFill
-from openpyxl.utils import get_column_letter
 
 from .. import CAUTION
 from .atomic import atomic_path
 from .fill import EXTRA_COLUMNS
 from .schema import LAYERS
 from .style import STATUS_COLOURS
+from .xlsx import Style, Workbook
 
 #: first row of values on a data sheet (1-based, as in the spreadsheet)
 FIRST_DATA_ROW = 4
+#: mark of the cheapest option on the options sheet (beside the 1 of `cheapest`)
+CHEAPEST_MARK = "\u2605 cheapest"
+#: font colour of the caution row: the deficit colour (A6103C)
+CAUTION_COLOUR = STATUS_COLOURS["deficit"].lstrip("#")
+#: statuses whose fill is light enough for black text (white on the others)
+_LIGHT = frozenset({"watch", "no_data"})
 
 
 def _units(layer: str) -> dict[str, str]:
@@ -34,64 +38,56 @@ def _units(layer: str) -> dict[str, str]:
     return u
 
 
-def _cell(v):
-    if isinstance(v, (float, np.floating)):
-        # 4 decimals, as in the CSV (mm and better for levels; no per-cell number format)
-        return None if not np.isfinite(v) else round(float(v), 4)
-    if isinstance(v, np.integer):
-        return int(v)
-    return v
+def _status_styles(wb: Workbook, status: np.ndarray, bold: np.ndarray) -> np.ndarray:
+    """Style id per row of the status column: its fill, a readable font, bold where asked."""
+    plain = {b: wb.style(Style(bold=b)) for b in (False, True)}
+    ids = np.where(bold, plain[True], plain[False])
+    for k, colour in STATUS_COLOURS.items():
+        font = "000000" if k in _LIGHT else "FFFFFF"
+        for b in (False, True):
+            sid = wb.style(Style(bold=b, colour=font, fill=colour.lstrip("#")))
+            ids[(status == k) & (bold == b)] = sid
+    return ids
 
 
 def _sheet(wb: Workbook, title: str, df: pd.DataFrame, units: dict[str, str],
            caution: str, *, bold_rows: np.ndarray | None = None,
            mark: tuple[str, str] | None = None) -> None:
-    """One data sheet, streamed row by row (openpyxl write-only mode: fast on long lines).
+    """One data sheet: caution, field names (bold), units (italic), then the values.
 
     ``bold_rows`` marks rows to set in bold; ``mark`` = (column, text) is appended
     to that column's value on those rows.
     """
-    ws = wb.create_sheet(title)
-    ws.freeze_panes = f"B{FIRST_DATA_ROW}"
-    for j, c in enumerate(df.columns, start=1):
-        ws.column_dimensions[get_column_letter(j)].width = max(10, min(28, len(c) + 2))
-    ws.append([_styled(ws, caution, Font(bold=True, color="A6103C"))])
-    ws.append([_styled(ws, c, _BOLD) for c in df.columns])
-    ws.append([_styled(ws, units.get(c, ""), _ITALIC) for c in df.columns])
     cols = list(df.columns)
-    status_col = cols.index("status") if "status" in cols else -1
-    mark_col = cols.index(mark[0]) if mark and mark[0] in cols else -1
-    fills = {k: PatternFill("solid", fgColor=c.lstrip("#")) for k, c in STATUS_COLOURS.items()}
-    light = {"watch", "no_data"}
-    for k, row in enumerate(df.itertuples(index=False)):
-        vals = [_cell(v) for v in row]
-        bold = bool(bold_rows is not None and bold_rows[k])
-        if bold and mark_col >= 0:
-            vals[mark_col] = f"{vals[mark_col]} {mark[1]}"
-        out = []
-        for j, v in enumerate(vals):
-            if j == status_col and v in fills:
-                c = WriteOnlyCell(ws, value=v)
-                c.fill = fills[v]
-                c.font = Font(color="000000" if v in light else "FFFFFF", bold=bold)
-                out.append(c)
-            else:
-                out.append(_styled(ws, v, _BOLD) if bold else v)
-        ws.append(out)
+    n = len(df)
+    bold = np.zeros(n, bool) if bold_rows is None else np.asarray(bold_rows, bool)
+    values: list = [df[c] for c in cols]
+    if mark and mark[0] in cols and bold.any():
+        j = cols.index(mark[0])
+        v = df[mark[0]].to_numpy(dtype=object).copy()
+        v[bold] = [f"{x} {mark[1]}" for x in v[bold]]
+        values[j] = v
+    row_style = np.where(bold, wb.style(Style(bold=True)), 0) if bold.any() else 0
+    styles: list = [row_style] * len(cols)
+    if "status" in cols:
+        status = df["status"].to_numpy(dtype=object)
+        styles[cols.index("status")] = _status_styles(wb, status, bold)
+    wb.add_sheet(
+        title, values,
+        head=[[caution], cols, [units.get(c, "") for c in cols]],
+        head_styles=[wb.style(Style(bold=True, colour=CAUTION_COLOUR)),
+                     wb.style(Style(bold=True)), wb.style(Style(italic=True))],
+        styles=styles, freeze=f"B{FIRST_DATA_ROW}",
+        widths=[max(10, min(28, len(c) + 2)) for c in cols],
+        decimals=4)  # 4 decimals, as in the CSV (mm and better for levels)
 
 
-_BOLD = Font(bold=True)
-_ITALIC = Font(italic=True)
-
-
-def _styled(ws, value, font: Font) -> WriteOnlyCell:
-    c = WriteOnlyCell(ws, value=value)
-    c.font = font
-    return c
-
-
-#: mark of the cheapest option on the options sheet (beside the 1 of `cheapest`)
-CHEAPEST_MARK = "\u2605 cheapest"
+def _when(metadata: dict) -> datetime | None:
+    """The run time of the metadata, to date the file (reruns write the same bytes)."""
+    try:
+        return datetime.fromisoformat(str(metadata["run_time"]))
+    except (KeyError, ValueError):
+        return None
 
 
 def write_workbook(stations: pd.DataFrame, stretches: pd.DataFrame, metadata: dict,
@@ -101,7 +97,7 @@ def write_workbook(stations: pd.DataFrame, stretches: pd.DataFrame, metadata: di
     ``options`` (options layer's fields; the sheet is left out when None) and metadata."""
     from .report_remedies import CAVEAT, COST_NOTE
 
-    wb = Workbook(write_only=True)
+    wb = Workbook()
     _sheet(wb, "stations", stations, _units("stations"), CAUTION)
     _sheet(wb, "stretches", stretches, _units("stretches"),
            CAUTION + " Fill volumes are estimates (method in the README).")
@@ -114,7 +110,7 @@ def write_workbook(stations: pd.DataFrame, stretches: pd.DataFrame, metadata: di
     meta = pd.DataFrame({"key": list(metadata), "value": [str(v) for v in metadata.values()]})
     _sheet(wb, "run", meta, {}, CAUTION)
     with atomic_path(path, overwrite=overwrite) as tmp:
-        wb.save(tmp)
+        wb.save(tmp, when=_when(metadata))
     return Path(path)
 
 
