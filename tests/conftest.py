@@ -3,8 +3,16 @@
 from __future__ import annotations
 
 import json
+import os
 
 import pytest
+from hypothesis import settings
+
+# CI runs the property tests on hypothesis's fixed sequence (reproducible verdicts);
+# local runs keep searching new examples
+settings.register_profile("ci", derandomize=True, print_blob=True)
+if os.environ.get("CI"):
+    settings.load_profile("ci")
 
 from trajectory.synthetic import LeveeSpec, make_centreline, write_scenario
 
