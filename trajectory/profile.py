@@ -30,6 +30,8 @@ Definitions (documented in the README, "How each quantity is found"):
 
 from __future__ import annotations
 
+import functools
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
@@ -109,22 +111,32 @@ class ProfileMetrics:
 def fill_gaps(z: np.ndarray) -> np.ndarray:
     """Fill NaN samples by linear interpolation along each row (ends: nearest).
 
-    Rows that are entirely NaN stay NaN.
+    Rows that are entirely NaN stay NaN. Returns a new float array.
     """
-    n, m = z.shape
-    valid = ~np.isnan(z)
+    return _fill_gaps(z, ~np.isnan(z))
+
+
+def _fill_gaps(z: np.ndarray, valid: np.ndarray) -> np.ndarray:
+    """:func:`fill_gaps` given the mask of valid samples; rows without gaps are copied."""
+    out = np.array(z, dtype=np.result_type(z.dtype, np.float64))
+    gap = np.flatnonzero(~valid.all(axis=1))
+    if gap.size == 0:
+        return out
+    zg, valid = z[gap], valid[gap]
+    n, m = zg.shape
     j = np.broadcast_to(np.arange(m), (n, m))
     left = np.maximum.accumulate(np.where(valid, j, -1), axis=1)
     right = np.minimum.accumulate(np.where(valid, j, m)[:, ::-1], axis=1)[:, ::-1]
     has_l, has_r = left >= 0, right < m
     li, ri = np.clip(left, 0, m - 1), np.clip(right, 0, m - 1)
-    zl = np.take_along_axis(z, li, 1)
-    zr = np.take_along_axis(z, ri, 1)
+    zl = np.take_along_axis(zg, li, 1)
+    zr = np.take_along_axis(zg, ri, 1)
     span = np.where(ri > li, ri - li, 1)
     t = (j - li) / span
     both = np.where(ri > li, zl + t * (zr - zl), zl)
-    out = np.where(has_l & has_r, both, np.where(has_l, zl, zr))
-    return np.where(valid, z, out)
+    filled = np.where(has_l & has_r, both, np.where(has_l, zl, zr))
+    out[gap] = np.where(valid, zg, filled)
+    return out
 
 
 def robust_noise(z: np.ndarray, step: float) -> np.ndarray:
@@ -132,10 +144,17 @@ def robust_noise(z: np.ndarray, step: float) -> np.ndarray:
 
     For white noise of std s the second difference has std s*sqrt(6); slopes
     (linear) contribute nothing, so the median is robust to the profile shape.
+    NaN samples are left out.
     """
-    d2 = z[:, 2:] - 2 * z[:, 1:-1] + z[:, :-2]
+    d2 = np.abs(z[:, 2:] - 2 * z[:, 1:-1] + z[:, :-2])
     with np.errstate(all="ignore"):
-        mad = np.nanmedian(np.abs(d2), axis=1)
+        if d2.shape[1] == 0:
+            mad = np.nanmedian(d2, axis=1)
+        else:
+            mad = np.median(d2, axis=1)   # NaN exactly in the rows holding a NaN
+            gap = np.flatnonzero(np.isnan(mad))
+            if gap.size:
+                mad[gap] = np.nanmedian(d2[gap], axis=1)
     return 1.4826 * mad / np.sqrt(6.0)
 
 
@@ -157,30 +176,49 @@ def remove_objects(z: np.ndarray, step: float, *, object_width: float,
     thr = np.maximum(OBJECT_MIN_HEIGHT, 4.0 * np.nan_to_num(noise, nan=0.0))[:, None]
     obj = (z - opened) > thr
     # widen by one cell: the flanks of an object are blurred by the sampling too
-    obj = ndimage.binary_dilation(obj, structure=np.ones((1, 3), bool))
-    return np.where(obj, opened, z)
+    # (a binary dilation with a 1 x 3 structure)
+    wide = obj.copy()
+    wide[:, 1:] |= obj[:, :-1]
+    wide[:, :-1] |= obj[:, 1:]
+    return np.where(wide, opened, z)
+
+
+def _median3(x: np.ndarray) -> np.ndarray:
+    """Running median over three samples along each row (ends: nearest); no NaN in ``x``."""
+    if x.shape[1] < 2:
+        return x.copy()
+    before = np.concatenate([x[:, :1], x[:, :-1]], axis=1)
+    after = np.concatenate([x[:, 1:], x[:, -1:]], axis=1)
+    return np.maximum(np.minimum(before, x), np.minimum(np.maximum(before, x), after))
 
 
 def _run_around(mask: np.ndarray, centre: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """First and last index of the True-run of ``mask`` containing ``centre`` per row."""
-    n, m = mask.shape
-    j = np.broadcast_to(np.arange(m), (n, m))
-    false_left = np.maximum.accumulate(np.where(~mask, j, -1), axis=1)
-    false_right = np.minimum.accumulate(np.where(~mask, j, m)[:, ::-1], axis=1)[:, ::-1]
+    m = mask.shape[1]
+    j = np.arange(m)
     c = centre[:, None]
-    lo = np.take_along_axis(false_left, c, 1)[:, 0] + 1
-    hi = np.take_along_axis(false_right, c, 1)[:, 0] - 1
+    off = ~mask
+    lo = np.where(off & (j <= c), j, -1).max(axis=1) + 1
+    hi = np.where(off & (j >= c), j, m).min(axis=1) - 1
     return lo, hi
+
+
+def _walk(shape: tuple[int, int], rows: np.ndarray, start: np.ndarray,
+          direction: np.ndarray | int, length: int) -> tuple[np.ndarray, np.ndarray]:
+    """Flat indices into a ``shape`` matrix going from ``start`` in ``direction`` per row.
+
+    Indices beyond the row's ends are clipped to them; the mask says which are inside.
+    """
+    m = shape[1]
+    idx = start[:, None] + np.asarray(direction)[..., None] * np.arange(length)[None, :]
+    inside = (idx >= 0) & (idx < m)
+    return rows[:, None] * m + np.clip(idx, 0, m - 1), inside
 
 
 def _side(d: np.ndarray, start: np.ndarray, direction: int, length: int) -> np.ndarray:
     """Samples going away from ``start`` (per row) in ``direction``; NaN beyond the end."""
-    n, m = d.shape
-    k = np.arange(length)
-    idx = start[:, None] + direction * k[None, :]
-    ok = (idx >= 0) & (idx < m)
-    vals = np.take_along_axis(d, np.clip(idx, 0, m - 1), 1)
-    return np.where(ok, vals, np.nan)
+    flat, inside = _walk(d.shape, np.arange(d.shape[0]), start, direction, length)
+    return np.where(inside, np.take(d, flat), np.nan)
 
 
 def masked_line_fit(x: np.ndarray, z: np.ndarray, w: np.ndarray
@@ -190,12 +228,17 @@ def masked_line_fit(x: np.ndarray, z: np.ndarray, w: np.ndarray
     Returns intercept, gradient, RMS residual, standard error of the gradient
     and the sample count (rows with fewer than 3 samples give NaN).
     """
-    zv = np.nan_to_num(z)
+    return _line_fit(x, np.nan_to_num(z), w)
+
+
+def _line_fit(x: np.ndarray, zv: np.ndarray, w: np.ndarray) -> tuple[np.ndarray, ...]:
+    """:func:`masked_line_fit` on levels ``zv`` already free of NaN."""
     cnt = w.sum(1)
-    sx = (w * x).sum(1)
+    wx = w * x
+    sx = wx.sum(1)
     sz = (w * zv).sum(1)
     sxx = (w * x**2).sum(1)
-    sxz = (w * x * zv).sum(1)
+    sxz = (wx * zv).sum(1)
     with np.errstate(all="ignore"):
         den = cnt * sxx - sx**2
         b = (cnt * sxz - sx * sz) / den
@@ -208,29 +251,35 @@ def masked_line_fit(x: np.ndarray, z: np.ndarray, w: np.ndarray
             np.where(few, np.nan, se_b), cnt)
 
 
-def _slope_side(s: np.ndarray, crest: np.ndarray, step: float) -> dict[str, np.ndarray]:
-    """Toe and fitted slope on one side; ``s`` runs from the crest edge outward."""
+def _slope_side(s: np.ndarray, crest: np.ndarray, step: float,
+                zv: np.ndarray | None = None) -> dict[str, np.ndarray]:
+    """Toe and fitted slope on one side; ``s`` runs from the crest edge outward.
+
+    ``zv`` is ``np.nan_to_num(s)`` when the caller has it.
+    """
     n, k = s.shape
     dist = np.arange(k) * step
     q = max(int(round(1.0 / step)), 1)
-    pad = np.pad(s, ((0, 0), (q, q)), mode="edge")
+    pad = np.concatenate([np.repeat(s[:, :1], q, axis=1), s, np.repeat(s[:, -1:], q, axis=1)],
+                         axis=1)
     grad = (pad[:, 2 * q:] - pad[:, :-2 * q]) / (2 * q * step)  # dz/d(distance)
+    gentle = grad > -1.0 / TOE_COT        # flatter than 1:TOE_COT (NaN: not)
     look = max(int(round(TOE_LOOKAHEAD / step)), 1)
-    s_inf = np.where(np.isnan(s), np.inf, s)
+    beyond = np.isnan(s)
+    s_inf = np.where(beyond, np.inf, s)
     ahead_min = ndimage.minimum_filter1d(s_inf, size=look, axis=1, mode="nearest",
                                          origin=-(look // 2))
     fall_ahead = s - ahead_min
-    flat = (-grad < 1.0 / TOE_COT) & (fall_ahead < TOE_DROP) & np.isfinite(s)
+    flat = gentle & (fall_ahead < TOE_DROP) & np.isfinite(s)
     flat[:, 0] = False
-    beyond = np.isnan(s)
     has_toe = flat.any(axis=1)
     first_flat = np.argmax(flat, axis=1)
     last_valid = k - 1 - np.argmax(~beyond[:, ::-1], axis=1)
     toe = np.where(has_toe, first_flat, last_valid)
-    toe_level = np.take_along_axis(s, toe[:, None], 1)[:, 0]
+    toe_level = s[np.arange(n), toe]
     # the slope is fitted from the edge down to the first flat part (a berm or the
     # toe): the upper slope, which governs run-up and overtopping
-    any_flat = (-grad < 1.0 / TOE_COT) & (s < (crest - BERM_MIN_DROP)[:, None])
+    any_flat = gentle & (s < (crest - BERM_MIN_DROP)[:, None])
     seg_end = np.where(any_flat.any(axis=1), np.argmax(any_flat, axis=1), toe)
     seg_end = np.minimum(seg_end, toe)
     kk = np.arange(k)[None, :]
@@ -238,9 +287,8 @@ def _slope_side(s: np.ndarray, crest: np.ndarray, step: float) -> dict[str, np.n
     # flatten the fitted slope (truncation on the fitted variable)
     # (the lower end also clears the gradient window, by which the flat part is found late)
     trim = np.rint(FIT_TRIM * seg_end).astype(int)[:, None]
-    w = ((kk >= trim) & (kk <= seg_end[:, None] - np.maximum(trim, q))).astype(float)
-    w[np.isnan(s)] = 0.0
-    a, b, res, se_b, cnt = masked_line_fit(dist, s, w)
+    w = ((kk >= trim) & (kk <= seg_end[:, None] - np.maximum(trim, q)) & ~beyond).astype(float)
+    a, b, res, se_b, cnt = _line_fit(dist, np.nan_to_num(s) if zv is None else zv, w)
     with np.errstate(all="ignore"):
         cot = np.where((cnt >= 3) & (b < 0), -1.0 / b, np.nan)
         se_cot = np.where(np.isfinite(cot), se_b / b**2, np.nan)
@@ -249,8 +297,39 @@ def _slope_side(s: np.ndarray, crest: np.ndarray, step: float) -> dict[str, np.n
             "fit_count": cnt, "cot_se": se_cot, "toe_j": toe, "a": a, "b": b}
 
 
+@functools.lru_cache(maxsize=16)
+def _savgol_slope(win: int, step: float) -> np.ndarray:
+    """Savitzky-Golay convolution coefficients of the first derivative, first order."""
+    return signal.savgol_coeffs(win, 1, deriv=1, delta=step)
+
+
+def _flatter_than(sf: np.ndarray, limit: np.ndarray, relevant: np.ndarray, win: int,
+                  step: float) -> np.ndarray:
+    """``-grad < limit`` with ``grad`` the Savitzky-Golay gradient of ``sf`` over ``win``.
+
+    The gradient is ``signal.savgol_filter(sf, win, 1, deriv=1, delta=step, axis=1,
+    mode="interp")``. Inside the rows it is that filter's own convolution. Within
+    ``win // 2`` of the ends, ``mode="interp"`` fits a line to the first (last) ``win``
+    samples: the same least-squares gradient the convolution gives next to the ends, up
+    to rounding (about 1e-15). That value is used there unless it lies within 1e-9 of
+    ``limit`` at a ``relevant`` cell; then the filter itself is run, so every comparison
+    is exactly the filter's.
+    """
+    k = sf.shape[1]
+    h = win // 2
+    grad = ndimage.convolve1d(sf, _savgol_slope(win, step), axis=1, mode="constant")
+    grad[:, :h] = grad[:, h:h + 1]
+    grad[:, k - h:] = grad[:, k - h - 1:k - h]
+    with np.errstate(invalid="ignore"):
+        near = (np.abs(-grad - limit[:, None]) <= 1e-9) & relevant
+    if near[:, :h].any() or near[:, k - h:].any():
+        grad = signal.savgol_filter(sf, win, 1, deriv=1, delta=step, axis=1, mode="interp")
+    return -grad < limit[:, None]
+
+
 def _berm_side(s: np.ndarray, crest: np.ndarray, side: dict[str, np.ndarray],
-               step: float) -> dict[str, np.ndarray]:
+               step: float, *, filled: np.ndarray | None = None, zv: np.ndarray | None = None,
+               ) -> dict[str, np.ndarray]:
     """First berm between a crest edge and its toe; ``s`` runs from the edge outward.
 
     A berm is a run at least ``BERM_MIN_WIDTH`` long whose gradient (least squares
@@ -258,47 +337,61 @@ def _berm_side(s: np.ndarray, crest: np.ndarray, side: dict[str, np.ndarray],
     slope, lying at least ``BERM_MIN_DROP`` below the crest and above the toe. Its
     level is the mean over the run; its ends are where the fitted slope lines above
     and below meet that level, so the blur of the gradient window does not shorten it.
+
+    ``filled`` is ``fill_gaps(s)`` and ``zv`` is ``np.nan_to_num(s)`` when the caller
+    has them.
     """
     n, k = s.shape
     dist = np.arange(k) * step
     win = max(int(round(BERM_WINDOW / step)) | 1, 5)
-    sf = fill_gaps(s)
-    sf = np.where(np.isnan(sf), 0.0, sf)
     if k < win:
         nan = np.full(n, np.nan)
         return {"level": nan, "width": nan, "slope": nan, "lower_cot": nan.copy()}
-    grad = signal.savgol_filter(sf, win, 1, deriv=1, delta=step, axis=1, mode="interp")
+    sf = fill_gaps(s) if filled is None else filled
+    if np.isnan(sf).any():
+        sf = np.where(np.isnan(sf), 0.0, sf)
+    zv = np.nan_to_num(s) if zv is None else zv
     tan_up = np.where(side["b"] < 0, -side["b"], np.nan)
     limit = np.minimum(1.0 / TOE_COT, 0.4 * tan_up)
     toe_j, toe_level = side["toe_j"], side["toe_level"]
     j = np.arange(k)[None, :]
-    cand = ((-grad < limit[:, None]) & np.isfinite(s) & (j >= 1) & (j < toe_j[:, None])
-            & (s < (crest - BERM_MIN_DROP)[:, None])
-            & (s > (toe_level + BERM_MIN_DROP)[:, None]))
+    finite = np.isfinite(s)
+    relevant = (finite & (j >= 1) & (j < toe_j[:, None])
+                & (s < (crest - BERM_MIN_DROP)[:, None])
+                & (s > (toe_level + BERM_MIN_DROP)[:, None]))
+    cand = _flatter_than(sf, limit, relevant, win, step) & relevant
     has = cand.any(axis=1)
     lo, hi = _run_around(cand, np.argmax(cand, axis=1))
     has &= (hi - lo + 1) * step >= BERM_MIN_WIDTH
-    on = (j >= lo[:, None]) & (j <= hi[:, None]) & has[:, None]
-    wt = on.astype(float)
-    _, gb, _, _, cnt = masked_line_fit(dist, s, wt)
+    # level, gradient and ends are measured on the rows with a berm only
+    r = np.flatnonzero(has)
+    lo, hi, toe_j, zv, finite = lo[r], hi[r], toe_j[r], zv[r], finite[r]
+    a_up, b_up = side["a"][r], side["b"][r]
+    wt = ((j >= lo[:, None]) & (j <= hi[:, None])).astype(float)
+    _, gb, _, _, cnt = _line_fit(dist, zv, wt)
     with np.errstate(all="ignore"):
-        level = (wt * np.nan_to_num(s)).sum(1) / cnt
+        level = (wt * zv).sum(1) / cnt
     # the slope line below the berm: from the run's end down to the toe, trimmed
     trim = np.rint(FIT_TRIM * (toe_j - hi)).astype(int)[:, None]
     q = max(int(round(1.0 / step)), 1)   # the toe is found this late (its gradient window)
     below = ((j > (hi[:, None] + trim)) & (j <= (toe_j[:, None] - np.maximum(trim, q)))
-             & np.isfinite(s))
-    al, bl, _, _, cnt_l = masked_line_fit(dist, s, below.astype(float))
+             & finite)
+    al, bl, _, _, cnt_l = _line_fit(dist, zv, below.astype(float))
     with np.errstate(all="ignore"):
-        x1 = np.where(side["b"] < 0, (level - side["a"]) / side["b"], lo * step)
+        x1 = np.where(b_up < 0, (level - a_up) / b_up, lo * step)
         x1 = np.clip(x1, 0.0, lo * step + 0.5 * BERM_WINDOW)
         ok_l = (cnt_l >= 3) & (bl < 0)
         x2 = np.where(ok_l, (level - al) / bl, hi * step + 0.5 * BERM_WINDOW)
         x2 = np.clip(x2, hi * step, toe_j * step)
         lower_cot = np.where(ok_l, -1.0 / bl, np.nan)
-    nan = np.where(has, 1.0, np.nan)
-    return {"level": level * nan, "width": (x2 - x1) * nan, "slope": -gb * nan,
-            "lower_cot": np.where(has, lower_cot, side["cot"]), "start": x1 * nan}
+
+    def rows(v: np.ndarray, other: np.ndarray | float = np.nan) -> np.ndarray:
+        full = np.array(np.broadcast_to(other, (n,)), dtype=float)
+        full[r] = v
+        return full
+
+    return {"level": rows(level), "width": rows(x2 - x1), "slope": rows(-gb),
+            "lower_cot": rows(lower_cot, side["cot"]), "start": rows(x1)}
 
 
 def _water_outer(raw: np.ndarray, wet: np.ndarray, toe_j: np.ndarray, noise: np.ndarray,
@@ -346,6 +439,37 @@ def _crest_ends(offsets: np.ndarray, lo: np.ndarray, hi: np.ndarray, crest: np.n
     return np.where(swap, offsets[hi], x_out), np.where(swap, offsets[lo], x_in)
 
 
+@dataclass(frozen=True)
+class _SideWalk:
+    """One side of a matrix ``d`` free of NaN, from a start column per row to the end."""
+
+    flat: np.ndarray     # flat indices into d (clipped to the row's end)
+    inside: np.ndarray   # which of them lie within the row
+    near: np.ndarray     # levels, the row's last one beyond its end: fill_gaps of ``s``
+    s: np.ndarray        # levels, NaN beyond the row's end
+    zv: np.ndarray       # levels, 0 beyond the row's end: np.nan_to_num of ``s``
+
+    @classmethod
+    def of(cls, d: np.ndarray, start: np.ndarray, direction: int) -> _SideWalk:
+        """The side of ``d`` from column ``start`` per row going in ``direction`` (+1, -1)."""
+        n, m = d.shape
+        flat, inside = _walk(d.shape, np.arange(n), start, direction, m)
+        near = np.take(d, flat)
+        s = np.where(inside, near, np.nan)
+        zv = np.where(inside, near, 0.0) if np.isfinite(near).all() else np.nan_to_num(s)
+        return cls(flat, inside, near, s, zv)
+
+
+@dataclass(frozen=True)
+class _Cleaned:
+    """The de-spiked matrix :func:`read_profiles` made, with what it was made from."""
+
+    source: np.ndarray     # a copy of the profile matrix read
+    step: float
+    object_width: float
+    clean: np.ndarray
+
+
 def read_profiles(
     z: np.ndarray, offsets: np.ndarray, *, object_width: float, crest_search: float,
     crest_tolerance: float, max_nodata: float,
@@ -353,19 +477,21 @@ def read_profiles(
     """Measure crest and slopes of every profile in ``z`` (offsets + towards outer side)."""
     n, m = z.shape
     step = float(offsets[1] - offsets[0])
-    nodata_fraction = np.isnan(z).mean(axis=1)
-    filled = fill_gaps(z)
-    empty = np.isnan(filled).all(axis=1)
+    gaps = np.isnan(z)
+    nodata_fraction = gaps.mean(axis=1)
+    filled = _fill_gaps(z, ~gaps)
+    empty = gaps.all(axis=1)
     filled[empty] = 0.0
     noise = robust_noise(filled, step)
     clean = remove_objects(filled, step, object_width=object_width, noise=noise)
     # a light running median steadies the search for the top and the crest's extent
-    d = ndimage.median_filter(clean, size=(1, 3), mode="nearest")
+    d = _median3(clean)
 
     zone = np.abs(offsets) <= crest_search
     dz = np.where(zone[None, :], d, -np.inf)
     top_j = np.argmax(dz, axis=1)
-    top = dz[np.arange(n), top_j]
+    rows = np.arange(n)
+    top = dz[rows, top_j]
     tol = np.maximum(crest_tolerance, 3.0 * np.nan_to_num(noise))
     on_crest = (d >= (top - tol)[:, None]) & zone[None, :]
     lo, hi = _run_around(on_crest, top_j)
@@ -376,28 +502,31 @@ def read_profiles(
     zone_j = np.flatnonzero(zone)
     off_centre = (lo <= zone_j[0]) | (hi >= zone_j[-1])
 
-    k = m  # long enough to reach the section's end from any edge
-    # slopes are read on the de-spiked levels, so posts on a slope do not bend the fit
-    s_out, s_in = _side(d, hi, +1, k), _side(d, lo, -1, k)
-    out = _slope_side(s_out, crest_level, step)
-    inn = _slope_side(s_in, crest_level, step)
+    # slopes are read on the de-spiked levels, so posts on a slope do not bend the fit;
+    # each side runs from its crest end to the section's end
+    out_walk, in_walk = _SideWalk.of(d, hi, +1), _SideWalk.of(d, lo, -1)
+    out = _slope_side(out_walk.s, crest_level, step, zv=out_walk.zv)
+    inn = _slope_side(in_walk.s, crest_level, step, zv=in_walk.zv)
     # the crest ends where the fitted slope lines meet the crest level: samples on the
     # shoulders (within the tolerance but already on a slope) must not pull the level down
     x_out, x_in = _crest_ends(offsets, lo, hi, crest_level, out, inn, step)
-    inner = (j >= lo[:, None]) & (j <= hi[:, None]) \
-        & (offsets[None, :] >= (x_in + 0.5 * step)[:, None]) \
-        & (offsets[None, :] <= (x_out - 0.5 * step)[:, None])
+    inner = (in_crest
+             & (offsets[None, :] >= (x_in + 0.5 * step)[:, None])
+             & (offsets[None, :] <= (x_out - 0.5 * step)[:, None]))
     n_inner = inner.sum(1)
     with np.errstate(all="ignore"):
         refined = np.where(inner, clean, 0.0).sum(1) / n_inner
     crest_level = np.where(n_inner >= 1, refined, crest_level)
     cells = np.where(n_inner >= 1, n_inner, cells)
-    berm_out = _berm_side(s_out, crest_level, out, step)
-    berm_in = _berm_side(s_in, crest_level, inn, step)
-    wet = _side(np.isnan(z).astype(float), hi, +1, k) > 0
+    berm_out = _berm_side(out_walk.s, crest_level, out, step, filled=out_walk.near,
+                          zv=out_walk.zv)
+    berm_in = _berm_side(in_walk.s, crest_level, inn, step, filled=in_walk.near,
+                         zv=in_walk.zv)
+    wet = np.take(gaps, out_walk.flat) & out_walk.inside
     # contrast with the land side's noise (water returns lower the whole row's estimate)
     land_noise = robust_noise(filled[:, offsets <= 0], step)
-    water = _water_outer(_side(clean, hi, +1, k), wet, out["toe_j"], land_noise, step)
+    raw_out = np.where(out_walk.inside, np.take(clean, out_walk.flat), np.nan)
+    water = _water_outer(raw_out, wet, out["toe_j"], land_noise, step)
 
     flags = np.zeros(n, dtype=np.int64)
     flags |= np.where(nodata_fraction > max_nodata, FLAGS["nodata"], 0)
@@ -415,7 +544,7 @@ def read_profiles(
     outer_edge = x_out
     inner_edge = x_in
     nan = np.where(readable, 1.0, np.nan)  # no made-up numbers where unreadable
-    return ProfileMetrics(
+    metrics = ProfileMetrics(
         crest_level=crest_level * nan,
         crest_offset=0.5 * (outer_edge + inner_edge) * nan,
         crest_width=(outer_edge - inner_edge) * nan,
@@ -445,6 +574,10 @@ def read_profiles(
         outer_lower_slope=berm_out["lower_cot"] * nan,
         outer_water=water & readable,
     )
+    # kept for characteristic_slope on the same profiles (not a field: not an output)
+    object.__setattr__(metrics, "_cleaned", _Cleaned(np.array(z, copy=True), step,
+                                                      float(object_width), clean))
+    return metrics
 
 
 def flag_text(flags: np.ndarray) -> np.ndarray:
@@ -461,13 +594,40 @@ def _length_above(s: np.ndarray, level: np.ndarray, stop: np.ndarray) -> np.ndar
     Exact for a falling piecewise-linear profile (it is then the distance to the
     point where the profile passes ``level``) and unbiased by noise.
     """
+    return _lengths_above(s, stop)(level)
+
+
+def _lengths_above(s: np.ndarray, stop: np.ndarray) -> Callable[[np.ndarray], np.ndarray]:
+    """:func:`_length_above` of one ``s`` and ``stop`` for any level (shared parts once)."""
     a, b = s[:, :-1], s[:, 1:]
-    lv = level[:, None]
+    level_run = a == b
+    top = np.maximum(a, b)
     with np.errstate(all="ignore"):
-        frac = np.where(a == b, (a > lv).astype(float),
-                        np.clip((np.maximum(a, b) - lv) / np.abs(a - b), 0.0, 1.0))
-    j = np.arange(a.shape[1])[None, :]
-    return np.where((j < stop[:, None]) & np.isfinite(frac), frac, 0.0).sum(axis=1)
+        fall = np.abs(a - b)
+    before = np.arange(a.shape[1])[None, :] < stop[:, None]
+
+    def length(level: np.ndarray) -> np.ndarray:
+        lv = level[:, None]
+        with np.errstate(all="ignore"):
+            frac = np.where(level_run, a > lv, np.clip((top - lv) / fall, 0.0, 1.0))
+        return np.where(before & np.isfinite(frac), frac, 0.0).sum(axis=1)
+
+    return length
+
+
+def cleaned_profiles(prof: ProfileMetrics, z: np.ndarray, offsets: np.ndarray, *,
+                     object_width: float) -> np.ndarray | None:
+    """The de-spiked matrix :func:`read_profiles` made when it returned ``prof``.
+
+    Only when it read this very ``z`` (equal values) on the same sample step with
+    the same ``object_width``; otherwise None. For ``characteristic_slope(clean=...)``.
+    """
+    kept = getattr(prof, "_cleaned", None)
+    if kept is None or kept.object_width != float(object_width) or len(offsets) < 2:
+        return None
+    if kept.step != float(offsets[1] - offsets[0]) or kept.source.shape != np.shape(z):
+        return None
+    return kept.clean if np.array_equal(kept.source, z, equal_nan=True) else None
 
 
 def characteristic_slope(
@@ -477,7 +637,7 @@ def characteristic_slope(
     toe_is_ground: np.ndarray | None = None, lower_slope: np.ndarray | None = None,
     tm10: np.ndarray | None = None, gamma_f: np.ndarray | float = 1.0,
     gamma_beta: np.ndarray | float = 1.0, object_width: float = 1.0, iterations: int = 4,
-    approach: str = "design",
+    approach: str = "design", clean: np.ndarray | None = None,
 ) -> np.ndarray:
     """Characteristic (average) outer slope tan(alpha) of a composite profile.
 
@@ -507,6 +667,8 @@ def characteristic_slope(
     swl, hm0 : still water level (incl. allowances) and Hm0 per station.
     berm_width, berm_level : the outer berm (NaN where none); without ``berm_level``
         the berm width is left out wherever it is finite.
+    clean : the de-spiked ``z`` (gaps filled, objects of ``object_width`` removed) if
+        already made, e.g. :func:`cleaned_profiles`; made here when None.
 
     Returns
     -------
@@ -519,11 +681,12 @@ def characteristic_slope(
     crest, edge, swl, hm0 = full(crest_level), full(outer_edge), full(swl), full(hm0)
     bw = np.nan_to_num(full(berm_width), nan=0.0)
     bl = full(np.nan) if berm_level is None else full(berm_level)
-    filled = fill_gaps(z)
-    empty = np.isnan(filled).all(axis=1)
-    filled[empty] = 0.0
-    clean = remove_objects(filled, step, object_width=object_width,
-                           noise=robust_noise(filled, step))
+    empty = np.isnan(z).all(axis=1)
+    if clean is None:
+        filled = fill_gaps(z)
+        filled[empty] = 0.0
+        clean = remove_objects(filled, step, object_width=object_width,
+                               noise=robust_noise(filled, step))
     ok = np.isfinite(crest) & np.isfinite(edge) & ~empty
     e = np.clip(np.rint((np.nan_to_num(edge) - offsets[0]) / step).astype(int), 0, m - 1)
     s = _side(clean, e, +1, m)
@@ -533,17 +696,19 @@ def characteristic_slope(
     else:
         toe_d = np.nan_to_num(full(outer_toe) - edge, nan=np.inf)
         stop = np.minimum(last, np.floor(np.clip(toe_d / step, 0, m)).astype(int))
-    stop_level = np.take_along_axis(s, stop[:, None], 1)[:, 0]
+    stop_level = s[np.arange(n), stop]
     ground = np.zeros(n, bool) if toe_is_ground is None else np.broadcast_to(
         np.asarray(toe_is_ground, bool), (n,))
     cot_ext = full(np.nan) if lower_slope is None else full(lower_slope)
 
+    length_above = _lengths_above(s, stop)
+    to_stop = length_above(stop_level) * step
+
     def position(level: np.ndarray) -> np.ndarray:
         """Distance from the edge (m) where the profile passes ``level``."""
-        inside = np.where(level >= crest, 0.0, _length_above(s, level, stop) * step)
+        inside = np.where(level >= crest, 0.0, length_above(level) * step)
         # below the last sample: extend from where the profile reaches that sample's level
-        beyond = (_length_above(s, stop_level, stop) * step
-                  + (stop_level - level) * cot_ext)
+        beyond = to_stop + (stop_level - level) * cot_ext
         return np.where(level < stop_level, beyond, inside)
 
     low = swl - 1.5 * hm0

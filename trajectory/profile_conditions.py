@@ -9,7 +9,13 @@ from __future__ import annotations
 import numpy as np
 
 from . import hydraulics as hy
-from .profile import FLAGS, ProfileMetrics, characteristic_slope, extrapolated_below
+from .profile import (
+    FLAGS,
+    ProfileMetrics,
+    characteristic_slope,
+    cleaned_profiles,
+    extrapolated_below,
+)
 from .requirement import StationConditions
 
 
@@ -35,7 +41,8 @@ def outer_characteristic_slope(
             outer_toe=prof.outer_toe, toe_is_ground=toe_is_ground,
             lower_slope=prof.outer_lower_slope, tm10=cond.tm10, gamma_f=cond.roughness,
             gamma_beta=hy.gamma_beta_runup(cond.wave_angle),
-            object_width=object_width, approach=approach)
+            object_width=object_width, approach=approach,
+            clean=cleaned_profiles(prof, z, offsets, object_width=object_width))
         fallback = 1.0 / prof.outer_slope
     tan = np.where(np.isfinite(tan) & (tan > 0), tan, fallback)
     extra = extrapolated_below(outer_toe_level=prof.outer_toe_level,
