@@ -239,13 +239,18 @@ def test_staged_outputs_are_renamed_together_or_not_at_all(tmp_path):
     assert sorted(p.name for p in tmp_path.iterdir()) == ["r.csv", "r.gpkg"]
 
 
-def test_writers_side_by_side_run_in_another_process_and_raise_its_errors():
+def test_writers_side_by_side_run_in_another_process_and_raise_its_errors(monkeypatch):
+    from trajectory import execution
     from trajectory.errors import InputError
     from trajectory.execution import side_by_side
 
     def fail() -> None:
         raise InputError("row 7 of sections.csv: hm0 is negative")
 
+    # where another thread runs (earlier tests may leave one), forking is refused
+    monkeypatch.setattr(execution, "fork_is_safe", lambda: False)
+    assert side_by_side([os.getpid, os.getpid], parallel=True) == [os.getpid()] * 2
+    monkeypatch.setattr(execution, "fork_is_safe", lambda: True)
     pids = side_by_side([os.getpid, os.getpid], parallel=True)
     assert pids[1] == os.getpid() and pids[0] != os.getpid()
     assert side_by_side([os.getpid, os.getpid], parallel=False) == [os.getpid()] * 2

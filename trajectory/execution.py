@@ -27,7 +27,7 @@ log = logging.getLogger(__name__)
 
 #: with ``workers=0`` (auto) a run of fewer chunks than this stays serial: starting
 #: processes costs more than it saves on a short line
-AUTO_POOL_MIN_CHUNKS = 6
+AUTO_POOL_MIN_CHUNKS = 3
 #: tasks kept in flight per worker (keeps every worker busy, bounds memory)
 IN_FLIGHT_PER_WORKER = 2
 

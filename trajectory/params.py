@@ -127,7 +127,7 @@ class Settings:
     simulate_random_state: int = _p(20261, "Random state of the Monte Carlo (same value, "
                                     "same result).", min=0, max=2**31 - 1, group="uncertainty")
     # --- execution
-    chunk_size: int = _p(64, "Stations processed together in one chunk (bounds memory).",
+    chunk_size: int = _p(256, "Stations processed together in one chunk (bounds memory).",
                          unit="stations", min=1, max=100000, group="execution")
     workers: int = _p(0, "Worker processes; 0 = auto (all cores for long runs, serial for "
                       "short ones), 1 = serial.",

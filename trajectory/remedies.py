@@ -43,6 +43,12 @@ import pandas as pd
 from . import hydraulics as hy
 from .requirement import StationConditions, required_level
 
+#: the caveat beside every reinforcement option (report and workbook)
+CAVEAT = ("Screening estimates for planning, not a design: idealised profiles from the "
+          "measured crest, slopes and toes; volumes are cross-section areas times stretch "
+          "length. To be reviewed by a qualified engineer under local codes.")
+#: the wording on costs, beside the caveat (report and workbook)
+COST_NOTE = "Costs are order-of-magnitude estimates (fill volume times the unit rate)."
 #: option names (the public values of the `option` field)
 OPTIONS = ("raise", "outer_berm", "combined")
 #: widths tried by the combined option's search
@@ -318,5 +324,5 @@ OPTION_COLUMNS = (
 )
 
 
-__all__ = ["OPTIONS", "OPTION_COLUMNS", "Geometry", "berm_area", "largest_effective_berm",
+__all__ = ["CAVEAT", "COST_NOTE", "OPTIONS", "OPTION_COLUMNS", "Geometry", "berm_area", "largest_effective_berm",
            "outline", "plan_options", "raise_area", "station_options"]

@@ -15,7 +15,7 @@ import numpy as np
 import pandas as pd
 from matplotlib.figure import Figure
 
-from ..remedies import OPTIONS, Geometry, outline
+from ..remedies import CAVEAT, COST_NOTE, OPTIONS, Geometry, outline
 from .plots import figure_html, new_figure
 from .style import STATUS_COLOURS
 
@@ -30,11 +30,6 @@ N_WORST = 3
 _STYLE = {"raise": ("#1b5e9e", "--"), "outer_berm": ("#c26a00", "-."),
           "combined": ("#2e7d32", ":")}
 
-CAVEAT = ("Screening estimates for planning, not a design: idealised profiles from the "
-          "measured crest, slopes and toes; volumes are cross-section areas times stretch "
-          "length. To be reviewed by a qualified engineer under local codes.")
-#: the wording on costs, beside the caveat (report and workbook)
-COST_NOTE = "Costs are order-of-magnitude estimates (fill volume times the unit rate)."
 
 
 def options_figure(station: pd.Series, rows: pd.DataFrame,

@@ -95,7 +95,7 @@ def write_workbook(stations: pd.DataFrame, stretches: pd.DataFrame, metadata: di
                    options: pd.DataFrame | None = None) -> Path:
     """Write ``stations`` (contract fields), the severity-sorted ``stretches``, the
     ``options`` (options layer's fields; the sheet is left out when None) and metadata."""
-    from .report_remedies import CAVEAT, COST_NOTE
+    from ..remedies import CAVEAT, COST_NOTE
 
     wb = Workbook()
     _sheet(wb, "stations", stations, _units("stations"), CAUTION)
