@@ -5,7 +5,8 @@ DEM as 1 km tiles behind a VRT) in a temporary folder and measures, each in a
 fresh process and repeated (the best wall time counts, the largest peak memory):
 
 - floor: rasterio reading just the windows that cover the sections, one window
-  per section, nothing else (the least any program must read);
+  per section, nothing else (the least any program must read), under the same
+  GDAL block cache as a run;
 - blocks: each internal block of the tiles that the sections touch, read once
   straight from the tile (the decompression a program cannot avoid);
 - serial: ``trajectory.assess.assess`` with one process (writes the GeoPackage);
@@ -95,14 +96,20 @@ def _cpu() -> float:
 
 
 def measure_floor(paths: dict[str, str], workers: int) -> dict:
-    """One window per section (the cells its samples and their neighbours need)."""
+    """One window per section (the cells its samples and their neighbours need).
+
+    Read under the same GDAL block cache as a run (``Settings.dem_cache``): like for
+    like, and steadier than GDAL's default cache of 5 % of the memory.
+    """
     import rasterio
     from rasterio.windows import Window
 
+    from trajectory.params import Settings
     from trajectory.sections import station_cell_ranges, to_pixel
 
     _, st, _, (x, y) = _sections(paths)
-    with rasterio.open(paths["dem"]) as ds:
+    cache = int(Settings().dem_cache * 2**20)
+    with rasterio.Env(GDAL_CACHEMAX=cache), rasterio.open(paths["dem"]) as ds:
         c, r = to_pixel(ds.transform, x, y)
         ext = station_cell_ranges(c, r, width=ds.width, height=ds.height)
         wins = [Window(int(c0), int(r0), int(c1 - c0), int(r1 - r0))

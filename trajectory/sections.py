@@ -68,19 +68,29 @@ def bilinear_window(grid: np.ndarray, col: np.ndarray, row: np.ndarray, *, col0:
     ia = np.clip(i0 - row0, 0, gh - 1) * gw
     ib = np.clip(i0 + (1 - row0), 0, gh - 1) * gw
     flat = grid.ravel()
+    gu, gv = 1.0 - fu, 1.0 - fv
+    corners = [(ia + ja, gv * gu), (ia + jb, gv * fu), (ib + ja, fv * gu), (ib + jb, fv * fu)]
+    zs = [flat[idx].astype(np.float64) for idx, _ in corners]
+    oks = [_valid(z, nodata) for z in zs]
+    if all(ok.all() for ok in oks):
+        # every neighbour valid (the usual case): the same sums without the masking
+        acc = zs[0] * corners[0][1]
+        wsum = corners[0][1].copy()
+        for z, (_, wt) in zip(zs[1:], corners[1:]):
+            acc += z * wt
+            wsum += wt
+        out = acc / wsum
+        out[~(inside & (wsum > 0))] = np.nan
+        return out
     acc = np.zeros(col.shape)
     wsum = np.zeros(col.shape)
-    gu, gv = 1.0 - fu, 1.0 - fv
-    for idx, wt in ((ia + ja, gv * gu), (ia + jb, gv * fu), (ib + ja, fv * gu),
-                    (ib + jb, fv * fu)):
-        z = flat[idx].astype(np.float64)
-        ok = _valid(z, nodata)
+    for z, ok, (_, wt) in zip(zs, oks, corners):
         acc += np.where(ok, z * wt, 0.0)
         wsum += np.where(ok, wt, 0.0)
     # the nearest cell decides whether the point has a value at all
-    ni = np.where(fv >= 0.5, ib, ia)
-    nj = np.where(fu >= 0.5, jb, ja)
-    good = inside & _valid(flat[ni + nj].astype(np.float64), nodata) & (wsum > 0)
+    near = np.where(fv >= 0.5, np.where(fu >= 0.5, oks[3], oks[2]),
+                    np.where(fu >= 0.5, oks[1], oks[0]))
+    good = inside & near & (wsum > 0)
     out = np.full(col.shape, np.nan)
     out[good] = acc[good] / wsum[good]
     return out
