@@ -8,13 +8,13 @@ import os
 import pytest
 from hypothesis import settings
 
+from trajectory.synthetic import LeveeSpec, make_centreline, write_scenario
+
 # CI runs the property tests on hypothesis's fixed sequence (reproducible verdicts);
 # local runs keep searching new examples
 settings.register_profile("ci", derandomize=True, print_blob=True)
 if os.environ.get("CI"):
     settings.load_profile("ci")
-
-from trajectory.synthetic import LeveeSpec, make_centreline, write_scenario
 
 
 @pytest.fixture(scope="session")

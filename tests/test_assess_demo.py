@@ -97,7 +97,7 @@ def test_crest_line_is_3d_at_the_crest_level(demo_result):
 def test_metadata_records_inputs_and_caution(demo_result):
     _, out = demo_result
     meta = pyogrio.read_dataframe(out, layer="run_metadata")
-    kv = dict(zip(meta["key"], meta["value"]))
+    kv = dict(zip(meta["key"], meta["value"], strict=True))
     assert "qualified engineer" in kv["caution"]
     assert len(kv["sha256_dem"]) == 64
     assert kv["param_spacing"] == "25.0"

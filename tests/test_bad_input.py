@@ -23,7 +23,11 @@ from shapely.geometry import LineString, MultiLineString, Point
 from trajectory.assess import RunInputs, run
 from trajectory.cli import EXIT_INPUT, EXIT_INTERNAL, EXIT_INTERRUPTED, main
 from trajectory.errors import (
-    ConditionsError, InputError, InputFileError, ParameterError, TrajectoryWarning,
+    ConditionsError,
+    InputError,
+    InputFileError,
+    ParameterError,
+    TrajectoryWarning,
 )
 from trajectory.params import Settings, load_run_file
 from trajectory.sources import read_centreline, read_conditions
@@ -346,7 +350,8 @@ def test_conditions_gap_and_overlap(tmp_path):
     with pytest.raises(ConditionsError) as err:
         read_conditions(_conditions(tmp_path, *rows))
     text = str(err.value)
-    assert "gap in chainage between section 'A' (row 2, to 200 m) and 'B' (row 3, from 250 m)" in text
+    assert ("gap in chainage between section 'A' (row 2, to 200 m) and 'B' (row 3, "
+            "from 250 m)") in text
     assert "sections 'B' (row 3) and 'C' (row 4) overlap (390-400 m)" in text
 
 

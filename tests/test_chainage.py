@@ -20,7 +20,7 @@ def test_station_positions_match_shapely_interpolate():
     # reference: shapely's own linear referencing (interpolate / project)
     line = _arc()
     st = make_stations(line, spacing=25.0, start_chainage=100.0)
-    for c, x, y in zip(st.chainage, st.x, st.y):
+    for c, x, y in zip(st.chainage, st.x, st.y, strict=True):
         p = line.interpolate(c - 100.0)
         assert (x, y) == pytest.approx((p.x, p.y), abs=1e-6)
         assert line.project(shapely.Point(x, y)) == pytest.approx(c - 100.0, abs=1e-6)

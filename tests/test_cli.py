@@ -59,5 +59,5 @@ def test_run_file_sets_parameters_and_cli_wins(demo, tmp_path):
                                                        "--watch-band", "0.3"])
     assert res.exit_code == 0, res.output
     meta = pyogrio.read_dataframe(out, layer="run_metadata")
-    kv = dict(zip(meta["key"], meta["value"]))
+    kv = dict(zip(meta["key"], meta["value"], strict=True))
     assert kv["param_spacing"] == "100.0" and kv["param_watch_band"] == "0.3"

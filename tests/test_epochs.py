@@ -17,7 +17,6 @@ from scipy import stats
 
 from trajectory.epochs import (
     EpochError,
-    accuracy_se,
     assess_epochs,
     check_order,
     decimal_year,
@@ -29,6 +28,7 @@ from trajectory.epochs import (
     run_file_inputs,
     stretch_figures,
 )
+from trajectory.uncertainty import rate_sigma
 
 YEARS = np.array([2012.0, 2015.5, 2017.0, 2019.0, 2021.25, 2024.0])
 
@@ -74,8 +74,20 @@ def test_two_epochs_give_a_slope_but_no_residual_standard_error():
 def test_accuracy_standard_error_is_the_unscaled_polyfit_covariance():
     # numpy.polyfit(cov="unscaled") returns (X'X)^-1; Var(slope) = sigma^2 [(X'X)^-1]_00
     _, cov = np.polyfit(YEARS, np.zeros_like(YEARS) + np.arange(YEARS.size), 1, cov="unscaled")
-    se = accuracy_se(YEARS, np.ones((1, YEARS.size)), vertical_accuracy=0.05)
+    read = np.ones((YEARS.size, 3), bool)
+    read[1, 1] = False                 # station 1 not read in the second survey
+    read[1:, 2] = False                # station 2 read once: no rate
+    se = rate_sigma(YEARS, np.full(3, 0.05)[None, :], read=read)
     assert se[0] == pytest.approx(0.05 * np.sqrt(cov[0, 0]), rel=1e-9)
+    keep = np.arange(YEARS.size) != 1
+    _, cov1 = np.polyfit(YEARS[keep], np.arange(keep.sum()), 1, cov="unscaled")
+    assert se[1] == pytest.approx(0.05 * np.sqrt(cov1[0, 0]), rel=1e-9)
+    assert np.isnan(se[2])
+    # the run uses it: one station, four surveys on a straight line (no scatter), so
+    # the standard error is the accuracy one
+    ep = assess_epochs(YEARS, 6.0 - 0.01 * (YEARS - YEARS[0])[None, :], np.array([0.3]),
+                       vertical_accuracy=0.05)
+    assert ep.lowering_rate_se[0] == pytest.approx(0.05 * np.sqrt(cov[0, 0]), rel=1e-9)
 
 
 def test_known_uniform_lowering_is_recovered_within_its_standard_error():

@@ -22,11 +22,20 @@ from scipy.interpolate import RegularGridInterpolator
 from trajectory.assess import RunInputs, assess, run
 from trajectory.chainage import Stations
 from trajectory.execution import (
-    DaskExecutor, ExecutionError, SerialExecutor, _bounded_map, make_executor, resolve_workers,
+    DaskExecutor,
+    ExecutionError,
+    SerialExecutor,
+    _bounded_map,
+    make_executor,
+    resolve_workers,
 )
 from trajectory.params import Settings
 from trajectory.sections import (
-    sample_profiles, section_offsets, section_points, station_cell_ranges, to_pixel,
+    sample_profiles,
+    section_offsets,
+    section_points,
+    station_cell_ranges,
+    to_pixel,
     window_groups,
 )
 
@@ -88,7 +97,11 @@ def test_vrt_mosaic_gives_the_same_results_as_one_merged_geotiff(tmp_path):
     from rasterio.merge import merge
 
     from trajectory.synthetic import (
-        LeveeSpec, make_centreline, write_centreline, write_dem, write_sections_csv,
+        LeveeSpec,
+        make_centreline,
+        write_centreline,
+        write_dem,
+        write_sections_csv,
     )
 
     spec = LeveeSpec().scaled(600.0)

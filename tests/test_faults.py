@@ -102,7 +102,7 @@ def test_corrupt_tile_gives_no_data_stations_and_an_incomplete_run(tiled, tmp_pa
     assert f"chainage {c.min():.1f}-" in res.output
     assert (tmp_path / "r.csv").read_text().splitlines()[1].startswith("# INCOMPLETE")
     meta = pyogrio.read_dataframe(out, layer="run_metadata")
-    kv = dict(zip(meta["key"], meta["value"]))
+    kv = dict(zip(meta["key"], meta["value"], strict=True))
     assert tile.name in kv["incomplete"]
 
 

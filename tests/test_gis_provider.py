@@ -156,7 +156,7 @@ def test_processing_run_matches_cli_value_by_value(qgis_python, demo, tmp_path):
     stations = pyogrio.read_dataframe(cli_out, layer="stations")
     assert answer["result"]["stations_ok"] == int((stations["status"] == "ok").sum())
     meta = pyogrio.read_dataframe(gis_out, layer="run_metadata")
-    values = dict(zip(meta["key"], meta["value"]))
+    values = dict(zip(meta["key"], meta["value"], strict=True))
     assert values["param_spacing"] == "20.0" and values["param_approach"] == approach
 
 

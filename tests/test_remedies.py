@@ -10,7 +10,12 @@ from shapely.geometry import Polygon
 
 from trajectory import hydraulics as hy
 from trajectory.remedies import (
-    Geometry, berm_area, largest_effective_berm, outline, raise_area, station_options,
+    Geometry,
+    berm_area,
+    largest_effective_berm,
+    outline,
+    raise_area,
+    station_options,
 )
 from trajectory.requirement import StationConditions, required_level
 
@@ -67,7 +72,7 @@ def _area_between(g, i, *, opt, base):
     new_x, new_z = outline(g, i, span=span, **opt)
 
     def poly(x, z):
-        return Polygon(list(zip(x, z)) + [(x[-1], base), (x[0], base)])
+        return Polygon(list(zip(x, z, strict=True)) + [(x[-1], base), (x[0], base)])
 
     return poly(new_x, new_z).area - poly(old_x, old_z).area
 

@@ -18,8 +18,14 @@ from hypothesis import strategies as st
 
 from trajectory import hydraulics as hy
 from trajectory.requirement import (
-    H1PCT_OVER_HM0, METHODS, STATION_COLUMNS, Requirement, StationConditions,
-    profile_berm, required_level, station_conditions,
+    H1PCT_OVER_HM0,
+    METHODS,
+    STATION_COLUMNS,
+    Requirement,
+    StationConditions,
+    profile_berm,
+    required_level,
+    station_conditions,
 )
 
 G = 9.81

@@ -21,7 +21,10 @@ from shapely.geometry import LineString, MultiLineString
 from trajectory.assess import Result, RunInputs, run
 from trajectory.errors import TrajectoryError
 from trajectory.sources import (
-    CONDITION_COLUMNS, OPTIONAL_COLUMNS, check_conditions_cover, read_conditions,
+    CONDITION_COLUMNS,
+    OPTIONAL_COLUMNS,
+    check_conditions_cover,
+    read_conditions,
 )
 from trajectory.synthetic import LeveeSpec, make_centreline, write_scenario
 

@@ -19,9 +19,18 @@ from trajectory.profile import read_profiles
 from trajectory.requirement import StationConditions, required_level
 from trajectory.sections import bilinear
 from trajectory.uncertainty import (
-    VerticalAccuracy, accuracy_from_settings, accuracy_preset, change_sigma, confidence,
-    crest_sigma, effective_cells, p_short, rate_sigma, required_slope_derivative,
-    slope_sigma, station_uncertainty,
+    VerticalAccuracy,
+    accuracy_from_settings,
+    accuracy_preset,
+    change_sigma,
+    confidence,
+    crest_sigma,
+    effective_cells,
+    p_short,
+    rate_sigma,
+    required_slope_derivative,
+    slope_sigma,
+    station_uncertainty,
 )
 
 CELL = 0.5

@@ -23,35 +23,58 @@ import rasterio
 from pyproj import CRS
 from shapely.geometry import LineString, MultiLineString
 
-from . import CAUTION, __version__
+from . import CAUTION, __version__, uncertainty
 from .chainage import Stations, crossing_sections, make_stations
 from .checks import check_chunk_memory, sections_off_the_line
 from .demread import DemReading, reading_rules, with_rules
 from .epoch_sources import crest_from_result, open_earlier_dem
 from .epochs import Epoch, EpochLevels, assess_epochs, check_order
 from .errors import InputError, ParameterError
-from .faults import (
-    FLAG_OFF_DEM, FLAG_READ_FAILED, READ_ERROR, ChunkFailure, Guarded, add_flag,
-    blank_stations, failure_runs, fill_failures, incomplete_text, off_dem, part_size,
-    report_off_dem,
-)
 from .execution import (
-    EXECUTION_FIELDS, geopackage_write_options, make_executor, run_time, side_by_side,
+    EXECUTION_FIELDS,
+    geopackage_write_options,
+    make_executor,
+    run_time,
+    side_by_side,
+)
+from .faults import (
+    FLAG_OFF_DEM,
+    FLAG_READ_FAILED,
+    READ_ERROR,
+    ChunkFailure,
+    Guarded,
+    add_flag,
+    blank_stations,
+    failure_runs,
+    fill_failures,
+    incomplete_text,
+    off_dem,
+    part_size,
+    report_off_dem,
 )
 from .lines import Centreline, read_centrelines, read_line_conditions, stack_stretches
 from .params import Settings
 from .profile import FLAGS, ProfileMetrics, flag_text, read_profiles
 from .profile_conditions import outer_characteristic_slope
+from .remedies import plan_options
 from .requirement import (
-    STATION_COLUMNS, StationConditions, profile_berm, required_level, station_conditions,
+    STATION_COLUMNS,
+    StationConditions,
+    profile_berm,
+    required_level,
+    station_conditions,
 )
 from .sections import sample_profiles, section_offsets
 from .sources import (
-    Conditions, DemInfo, assign_sections, file_checksum, line_bounds_overlap,
-    open_dem, read_centreline, read_conditions,
+    Conditions,
+    DemInfo,
+    assign_sections,
+    file_checksum,
+    line_bounds_overlap,
+    open_dem,
+    read_centreline,
+    read_conditions,
 )
-from . import uncertainty
-from .remedies import plan_options
 from .station_list import read_station_chainages
 from .status import Stretches, classify, merge_stretches, station_extents
 from .uncertainty import accuracy_from_settings, simulate, simulation_summary, station_uncertainty

@@ -103,7 +103,7 @@ def check_simple(line: LineString, *, source: str) -> None:
     uniq, count = np.unique(key, axis=0, return_counts=True)
     first, last = np.round(np.asarray(line.coords[0])[:2], 3), np.round(
         np.asarray(line.coords[-1])[:2], 3)
-    where = [u for u, c in zip(uniq, count) if c >= 3 or (
+    where = [u for u, c in zip(uniq, count, strict=True) if c >= 3 or (
         c >= 2 and not (np.allclose(u, first) or np.allclose(u, last)))]
     xy = where[0] if where else ends[0]
     closed = np.allclose(first, last)
@@ -132,11 +132,13 @@ def condition_plausibility(t: Any, *, row_base: int = 2) -> list[str]:
     findings = []
     hm0 = t["hm0"].to_numpy(float)
     for i in np.flatnonzero((hm0 > 0) & (hm0 < MIN_WAVE_HEIGHT)):
-        findings.append(f"row {i + row_base}, column hm0: {hm0[i]:g} m is below {MIN_WAVE_HEIGHT} m; "
+        findings.append(f"row {i + row_base}, column hm0: {hm0[i]:g} m is below "
+                        f"{MIN_WAVE_HEIGHT} m; "
                         "give 0 for no waves")
     gf = t["roughness"].to_numpy(float)
     for i in np.flatnonzero((gf > 0) & (gf < MIN_ROUGHNESS)):
-        findings.append(f"row {i + row_base}, column roughness: {gf[i]:g} is below {MIN_ROUGHNESS}, "
+        findings.append(f"row {i + row_base}, column roughness: {gf[i]:g} is below "
+                        f"{MIN_ROUGHNESS}, "
                         "rougher than any published slope surface")
     wl = t["water_level"].to_numpy(float)
     for i in np.flatnonzero((wl < -500.0) | (wl > 9000.0)):
@@ -144,7 +146,8 @@ def condition_plausibility(t: Any, *, row_base: int = 2) -> list[str]:
                         "metres (check the unit and the datum)")
     tm = t["tm10"].to_numpy(float)
     for i in np.flatnonzero((tm > 0) & (tm < MIN_WAVE_PERIOD)):
-        findings.append(f"row {i + row_base}, column tm10: {tm[i]:g} s is below {MIN_WAVE_PERIOD} s; "
+        findings.append(f"row {i + row_base}, column tm10: {tm[i]:g} s is below "
+                        f"{MIN_WAVE_PERIOD} s; "
                         "check the unit (seconds)")
     return findings
 
@@ -154,7 +157,7 @@ def sections_off_the_line(t: Any, first: float, last: float) -> list[str]:
     lo, hi = t["from_chainage"].to_numpy(float), t["to_chainage"].to_numpy(float)
     return [f"section {sid!r} ({a:g}-{b:g} m) lies outside the line's chainage "
             f"({first:g}-{last:g} m) and is not used; check its chainage or --start-chainage"
-            for sid, a, b in zip(t["section_id"], lo, hi) if b < first or a > last]
+            for sid, a, b in zip(t["section_id"], lo, hi, strict=True) if b < first or a > last]
 
 
 # ---------------------------------------------------------------- parameters

@@ -39,6 +39,7 @@ from pathlib import Path
 import numpy as np
 
 from .errors import InputError
+from .uncertainty import change_sigma, rate_sigma
 
 #: a bare year, or an ISO date
 _DATE = re.compile(r"^\s*(\d{4})(?:-(\d{2})-(\d{2}))?\s*$")
@@ -232,21 +233,6 @@ def fit_rates(years: np.ndarray, crest: np.ndarray) -> RateFit:
     return RateFit(slope=slope, intercept=intercept, slope_se=se, n=n.astype(int))
 
 
-def accuracy_se(years: np.ndarray, crest: np.ndarray, *, vertical_accuracy: float) -> np.ndarray:
-    """Standard error of the slope if each epoch's level had error ``vertical_accuracy``.
-
-    Var(slope) = sigma^2 / Sxx for independent errors of equal variance
-    (simple linear regression, e.g. Montgomery & Runger, ch. 11).
-    """
-    t = np.broadcast_to(np.asarray(years, float), np.shape(crest))
-    ok = np.isfinite(crest) & np.isfinite(t)
-    n = ok.sum(axis=1)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        tm = np.where(ok, t, 0.0).sum(axis=1) / n
-        sxx = (np.where(ok, t - tm[:, None], 0.0) ** 2).sum(axis=1)
-        return np.where(n >= 2, vertical_accuracy / np.sqrt(sxx), np.nan)
-
-
 def projected_year(margin: np.ndarray, lowering_rate: np.ndarray, significant: np.ndarray, *,
                    year_now: float) -> np.ndarray:
     """Calendar year in which ``margin`` reaches zero at ``lowering_rate`` (NaN: none).
@@ -297,12 +283,14 @@ def assess_epochs(years: np.ndarray, crest: np.ndarray, margin: np.ndarray, *,
     change_first = np.where(used >= 2, latest - first, np.nan)
     fit = fit_rates(years, crest)
     rate = -fit.slope
-    se = np.fmax(fit.slope_se, accuracy_se(years, crest, vertical_accuracy=vertical_accuracy))
+    # the rate's error from the spread of the levels, or from the surveys' accuracy
+    # where that is larger (few surveys on a straight line)
+    sigma = np.broadcast_to(np.asarray(vertical_accuracy, float), latest.shape)
+    se = np.fmax(fit.slope_se, rate_sigma(years, sigma[None, :], read=readable.T))
     se = np.where(np.isfinite(rate), se, np.nan)
     with np.errstate(invalid="ignore"):
         significant = np.isfinite(latest) & (rate > rate_z * se)
-        drop_limit = rate_z * np.sqrt(2.0) * vertical_accuracy
-        dropped = change_previous < -drop_limit
+        dropped = change_previous < -rate_z * change_sigma(sigma, sigma)
     year_now = float(years[-1]) if k >= 2 else np.nan
     proj = projected_year(margin, rate, significant, year_now=year_now)
     return EpochStations(

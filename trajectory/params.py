@@ -10,10 +10,11 @@ gets the same checks as the command line.
 from __future__ import annotations
 
 import dataclasses
-import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
+
+import tomllib
 
 from .checks import settings_consistency
 from .errors import ParameterError

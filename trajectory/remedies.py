@@ -255,12 +255,13 @@ def plan_options(
     if every.size == 0:
         return pd.DataFrame(columns=list(OPTION_COLUMNS))
     targets = np.concatenate([np.full(idx.size, 0.0 if stretches.status[i] == "deficit"
-                                      else watch_band) for i, idx in zip(picked, members)])
+                                      else watch_band)
+                              for i, idx in zip(picked, members, strict=True)])
     all_opts = station_options(cond.take(every), _take(g, every), target_margin=targets,
                                berm_above_swl=berm_above_swl, fill_settlement=settle[every],
                                approach=approach)
     bounds = np.concatenate([[0], np.cumsum([idx.size for idx in members])])
-    for k, (i, idx) in enumerate(zip(picked, members)):
+    for k, (i, idx) in enumerate(zip(picked, members, strict=True)):
         if idx.size == 0:
             continue
         status = stretches.status[i]
@@ -324,5 +325,6 @@ OPTION_COLUMNS = (
 )
 
 
-__all__ = ["CAVEAT", "COST_NOTE", "OPTIONS", "OPTION_COLUMNS", "Geometry", "berm_area", "largest_effective_berm",
+__all__ = ["CAVEAT", "COST_NOTE", "OPTIONS", "OPTION_COLUMNS", "Geometry", "berm_area",
+           "largest_effective_berm",
            "outline", "plan_options", "raise_area", "station_options"]

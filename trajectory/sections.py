@@ -76,7 +76,7 @@ def bilinear_window(grid: np.ndarray, col: np.ndarray, row: np.ndarray, *, col0:
         # every neighbour valid (the usual case): the same sums without the masking
         acc = zs[0] * corners[0][1]
         wsum = corners[0][1].copy()
-        for z, (_, wt) in zip(zs[1:], corners[1:]):
+        for z, (_, wt) in zip(zs[1:], corners[1:], strict=True):
             acc += z * wt
             wsum += wt
         out = acc / wsum
@@ -84,7 +84,7 @@ def bilinear_window(grid: np.ndarray, col: np.ndarray, row: np.ndarray, *, col0:
         return out
     acc = np.zeros(col.shape)
     wsum = np.zeros(col.shape)
-    for z, ok, (_, wt) in zip(zs, oks, corners):
+    for z, ok, (_, wt) in zip(zs, oks, corners, strict=True):
         acc += np.where(ok, z * wt, 0.0)
         wsum += np.where(ok, wt, 0.0)
     # the nearest cell decides whether the point has a value at all

@@ -166,8 +166,13 @@ def file_checksum(path: str | Path) -> str:
 # ---------------------------------------------------------------- conditions
 # Section conditions live in their own module; their names stay importable from here.
 from .conditions import (  # noqa: E402,F401
-    CONDITION_COLUMNS, OPTIONAL_COLUMNS, Conditions, assign_sections, check_conditions_cover,
-    read_conditions, validate_conditions,
+    CONDITION_COLUMNS,
+    OPTIONAL_COLUMNS,
+    Conditions,
+    assign_sections,
+    check_conditions_cover,
+    read_conditions,
+    validate_conditions,
 )
 
 

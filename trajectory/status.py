@@ -37,7 +37,8 @@ class Stretches:
         return self.to_chainage - self.from_chainage
 
 
-def station_extents(chainage: np.ndarray, start: float, end: float) -> tuple[np.ndarray, np.ndarray]:
+def station_extents(chainage: np.ndarray, start: float,
+                    end: float) -> tuple[np.ndarray, np.ndarray]:
     """Chainage interval each station represents: halfway to its neighbours."""
     c = np.asarray(chainage, float)
     mid = 0.5 * (c[1:] + c[:-1])
@@ -69,7 +70,8 @@ def merge_stretches(
     last = np.concatenate([brk - 1, [n - 1]])
     lo, hi = station_extents(chainage, start, end)
     m = np.where(np.isnan(margin), np.inf, margin)
-    worst_idx = np.array([f + int(np.argmin(m[f:l + 1])) for f, l in zip(first, last)])
+    worst_idx = np.array([f + int(np.argmin(m[f:la + 1]))
+                          for f, la in zip(first, last, strict=True)])
     worst = np.asarray(margin, float)[worst_idx]
     return Stretches(first=first, last=last, status=st[first], from_chainage=lo[first],
                      to_chainage=hi[last], worst_margin=worst,

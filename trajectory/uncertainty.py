@@ -278,18 +278,29 @@ def change_sigma(sigma_a: np.ndarray, sigma_b: np.ndarray, *,
     return np.sqrt(np.maximum(v - 2.0 * shared_systematic**2, 0.0))
 
 
-def rate_sigma(years: np.ndarray, sigmas: np.ndarray) -> np.ndarray:
+def rate_sigma(years: np.ndarray, sigmas: np.ndarray,
+               read: np.ndarray | None = None) -> np.ndarray:
     """Standard deviation of a weighted least-squares rate (m/year) through levels of
-    known standard deviation: 1 / sqrt(sum w (t - t_w)^2), w = 1/sigma^2.
+    known standard deviation: 1 / sqrt(sum w (t - t_w)^2), w = 1/sigma^2 (for equal
+    sigmas, sigma / sqrt(Sxx) of simple linear regression).
 
     ``years`` has one entry per survey; ``sigmas`` is (surveys,) or (surveys, stations).
+    ``read`` (same shape as ``sigmas`` once broadcast) leaves out the surveys in which
+    a station was not read; fewer than two surveys give NaN.
     """
     t = np.asarray(years, float)
     s = np.asarray(sigmas, float)
+    if read is not None:
+        s = np.broadcast_to(s, np.shape(read))
     t = t.reshape((-1,) + (1,) * (s.ndim - 1))
-    w = 1.0 / s**2
-    tw = (w * t).sum(0) / w.sum(0)
-    return 1.0 / np.sqrt((w * (t - tw) ** 2).sum(0))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        w = 1.0 / s**2
+        if read is not None:
+            w = np.where(read, w, 0.0)
+        n = np.broadcast_to((w > 0).sum(0), w.shape[1:])
+        tw = (w * t).sum(0) / w.sum(0)
+        out = 1.0 / np.sqrt((w * (t - tw) ** 2).sum(0))
+    return np.where(n >= 2, out, np.nan)
 
 
 #: station-table columns this module adds (see outputs/schema.py)
