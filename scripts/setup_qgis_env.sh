@@ -41,9 +41,12 @@ CONSTRAINTS="$VENV/constraints.txt"
     echo "pyproj<3.7"
 } > "$CONSTRAINTS"
 NATIVE="shapely,pyproj,rasterio,pyogrio"
-# pyproj 3.6 must be compiled with Cython < 3.1 (later Cython breaks its string handling)
+# pyproj 3.6 must be compiled with Cython < 3.1 (later Cython breaks its string handling:
+# "TypeError: expected bytes, str found" on every CRS). pip 26 reads build constraints
+# from PIP_BUILD_CONSTRAINT (--build-constraint) only; older pips from PIP_CONSTRAINT.
 printf 'cython<3.1\n' > "$VENV/build-constraints.txt"
-PIP_CONSTRAINT="$VENV/build-constraints.txt" "$VPY" -m pip install --quiet \
+PIP_CONSTRAINT="$VENV/build-constraints.txt" PIP_BUILD_CONSTRAINT="$VENV/build-constraints.txt" \
+    "$VPY" -m pip install --quiet --no-cache-dir \
     --constraint "$CONSTRAINTS" --no-binary pyproj "pyproj>=3.5" 2>&1 | quiet
 # eager: Debian's older copies (attrs, pandas, ...) must not satisfy our dependencies
 "$VPY" -m pip install --quiet --upgrade --upgrade-strategy eager --constraint "$CONSTRAINTS" \
@@ -51,6 +54,8 @@ PIP_CONSTRAINT="$VENV/build-constraints.txt" "$VPY" -m pip install --quiet \
 "$VPY" - <<'PY' || { tail -40 "$LOG" >&2; echo "setup_qgis_env: trajectory is not usable beside qgis" \
          "(pip log: $LOG)" >&2; exit 1; }
 import qgis.core, shapely, rasterio, trajectory.gis_provider
+from pyproj import CRS
+CRS.from_user_input("EPSG:32632")  # a pyproj built with the wrong Cython fails here
 # the native packages must use the host's libraries, not bundled copies
 assert shapely.geos_version_string == qgis.core.Qgis.geosVersion().split("-")[0], (
     shapely.geos_version_string, qgis.core.Qgis.geosVersion())
