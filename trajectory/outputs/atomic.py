@@ -32,18 +32,8 @@ def atomic_path(path: str | Path, *, overwrite: bool) -> Iterator[Path]:
     if final in _STAGED:  # a temporary of :func:`staged`: written in place, renamed there
         yield final
         return
-    refuse_overwrite(final, overwrite=overwrite)
-    final.parent.mkdir(parents=True, exist_ok=True)
-    remove_stale_partials(final)
-    tmp = _partial_name(final)
-    if tmp.exists():
-        tmp.unlink()
-    try:
-        yield tmp
-        os.replace(tmp, final)
-    finally:
-        if tmp.exists():
-            tmp.unlink()
+    with staged([final], overwrite=overwrite) as tmp:
+        yield tmp[final]
 
 
 #: temporaries of the sets being written by :func:`staged` (forked writers inherit it)
