@@ -51,6 +51,21 @@ def bilinear_window(grid: np.ndarray, col: np.ndarray, row: np.ndarray, *, col0:
     value whichever window it is read from. Cells equal to ``nodata`` or NaN
     are nodata, treated as in :func:`bilinear`.
     """
+    gh, gw = grid.shape
+    return _bilinear_flat(grid.ravel(), col, row, col0=col0, row0=row0, grid_width=gw,
+                          grid_height=gh, base=0, width=width, height=height, nodata=nodata)
+
+
+def _bilinear_flat(flat: np.ndarray, col: np.ndarray, row: np.ndarray, *, col0, row0,
+                   grid_width, grid_height, base, width: int, height: int,
+                   nodata: float | None) -> np.ndarray:
+    """:func:`bilinear_window` on windows stored one after the other in ``flat``.
+
+    Each point's window starts at ``flat[base]`` and is ``grid_height x grid_width``
+    cells from dataset cell (``row0``, ``col0``); these may be scalars or arrays
+    broadcasting against ``col`` (one window per row of points), so a whole chunk
+    of sections is interpolated in one pass.
+    """
     u = col - 0.5
     v = row - 0.5
     j0 = np.floor(u)
@@ -60,14 +75,13 @@ def bilinear_window(grid: np.ndarray, col: np.ndarray, row: np.ndarray, *, col0:
     j0 = j0.astype(np.int64)
     i0 = i0.astype(np.int64)
     inside = (col >= 0) & (col <= width) & (row >= 0) & (row <= height)
-    gh, gw = grid.shape
     # window indices; a neighbour beyond the dataset's edge repeats the edge cell (as
     # GDAL does), and the window holds every cell a point inside the dataset needs
-    ja = np.clip(j0 - col0, 0, gw - 1)
-    jb = np.clip(j0 + (1 - col0), 0, gw - 1)
-    ia = np.clip(i0 - row0, 0, gh - 1) * gw
-    ib = np.clip(i0 + (1 - row0), 0, gh - 1) * gw
-    flat = grid.ravel()
+    gw1, gh1 = np.subtract(grid_width, 1), np.subtract(grid_height, 1)
+    ja = _clip(j0 - col0, gw1) + base
+    jb = _clip(j0 + np.subtract(1, col0), gw1) + base
+    ia = _clip(i0 - row0, gh1) * grid_width
+    ib = _clip(i0 + np.subtract(1, row0), gh1) * grid_width
     gu, gv = 1.0 - fu, 1.0 - fv
     corners = [(ia + ja, gv * gu), (ia + jb, gv * fu), (ib + ja, fv * gu), (ib + jb, fv * fu)]
     zs = [flat[idx].astype(np.float64) for idx, _ in corners]
@@ -94,6 +108,11 @@ def bilinear_window(grid: np.ndarray, col: np.ndarray, row: np.ndarray, *, col0:
     out = np.full(col.shape, np.nan)
     out[good] = acc[good] / wsum[good]
     return out
+
+
+def _clip(i: np.ndarray, hi) -> np.ndarray:
+    """``i`` clipped to ``[0, hi]`` (``hi`` a scalar or an array broadcasting against it)."""
+    return np.minimum(np.maximum(i, 0), hi)
 
 
 def _valid(z: np.ndarray, nodata: float | None) -> np.ndarray:
@@ -207,25 +226,41 @@ def sample_profiles(ds: rasterio.io.DatasetReader, stations: Stations,
                     ) -> np.ndarray:
     """Terrain levels (stations x offsets) along each cross-section, NaN for nodata.
 
-    Consecutive stations are read through shared windows (:func:`window_groups`);
-    the cells are kept in the DEM's own data type and only the four neighbours of
+    Consecutive stations are read through shared windows (:func:`window_groups`),
+    stored one after the other in one buffer and interpolated in one pass. The
+    cells are kept in the DEM's own data type and only the four neighbours of
     each sample are converted, so the cost follows the cells the sections cover.
     """
     x, y = section_points(stations, offsets)
     cols, rows = to_pixel(ds.transform, x, y)
-    out = np.full(x.shape, np.nan)
     ext = station_cell_ranges(cols, rows, width=ds.width, height=ds.height)
     plain = _plain_nodata(ds)
-    nodata = ds.nodata if plain else None
-    for a, b, (c0, c1, r0, r1) in window_groups(ext, overhead=overhead):
-        if c1 <= c0 or r1 <= r0:
-            continue
-        win = Window(int(c0), int(r0), int(c1 - c0), int(r1 - r0))
+    groups = [(a, b, e) for a, b, e in window_groups(ext, overhead=overhead)
+              if e[1] > e[0] and e[3] > e[2]]
+    out = np.full(x.shape, np.nan)
+    if not groups:
+        return out
+    # window of each group, and its place in the one buffer holding all the windows
+    win = np.array([e for _, _, e in groups], dtype=np.int64)   # c0, c1, r0, r1
+    gw, gh = win[:, 1] - win[:, 0], win[:, 3] - win[:, 2]
+    base = np.concatenate([[0], np.cumsum(gw * gh)])
+    flat = np.empty(int(base[-1]), dtype=ds.dtypes[0] if plain else np.float64)
+    for k, (c0, c1, r0, r1) in enumerate(win.tolist()):
+        part = flat[base[k]:base[k + 1]].reshape(r1 - r0, c1 - c0)
+        window = Window(c0, r0, c1 - c0, r1 - r0)
         if plain:
-            grid = ds.read(1, window=win)
+            ds.read(1, window=window, out=part)
         else:
-            grid = np.ma.filled(ds.read(1, window=win, masked=True).astype(np.float64),
-                                np.nan)
-        out[a:b] = bilinear_window(grid, cols[a:b], rows[a:b], col0=int(c0), row0=int(r0),
-                                   width=ds.width, height=ds.height, nodata=nodata)
+            part[:] = np.ma.filled(ds.read(1, window=window, masked=True).astype(np.float64),
+                                   np.nan)
+    # the group of each station (stations outside every window stay NaN)
+    first = np.array([a for a, _, _ in groups])
+    stop = np.array([b for _, b, _ in groups])
+    g = np.repeat(np.arange(len(groups)), stop - first)
+    rows_in = np.concatenate([np.arange(a, b) for a, b in zip(first, stop, strict=True)])
+    col_g, row_g = (win[g, 0])[:, None], (win[g, 2])[:, None]
+    out[rows_in] = _bilinear_flat(
+        flat, cols[rows_in], rows[rows_in], col0=col_g, row0=row_g,
+        grid_width=gw[g][:, None], grid_height=gh[g][:, None], base=base[g][:, None],
+        width=ds.width, height=ds.height, nodata=ds.nodata if plain else None)
     return out

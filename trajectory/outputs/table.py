@@ -6,6 +6,7 @@ from pathlib import Path
 
 from .. import CAUTION
 from .atomic import atomic_path
+from .csvtext import write_csv
 from .schema import field_names
 
 
@@ -22,7 +23,7 @@ def write_deficit_table(result, path: str | Path, *, overwrite: bool = False) ->
             fh.write(f"# {CAUTION}\n")
             if result.metadata.get("incomplete"):  # a partial result must say so (issue 7)
                 fh.write(f"# INCOMPLETE, DEM unreadable for: {result.metadata['incomplete']}\n")
-            df.to_csv(fh, index=False, float_format="%.4f")
+            write_csv(df, fh, decimals=4)
     return Path(path)
 
 
@@ -41,5 +42,5 @@ def write_stretch_table(result, path: str | Path, *, overwrite: bool = False) ->
     with atomic_path(path, overwrite=overwrite) as tmp:
         with open(tmp, "w", encoding="utf-8", newline="") as fh:
             fh.write(f"# {CAUTION} Fill volumes are estimates (method in the README).\n")
-            df.to_csv(fh, index=False, float_format="%.4f")
+            write_csv(df, fh, decimals=4)
     return Path(path)
