@@ -7,6 +7,8 @@ fresh process and repeated (the best wall time counts, the largest peak memory):
 - floor: rasterio reading just the windows that cover the sections, one window
   per section, nothing else (the least any program must read), under the same
   GDAL block cache as a run;
+- floor_pool: the same windows shared among the pool's processes (reading alone on
+  the cores the pool uses);
 - blocks: each internal block of the tiles that the sections touch, read once
   straight from the tile (the decompression a program cannot avoid);
 - serial: ``trajectory.assess.assess`` with one process (writes the GeoPackage);
@@ -120,6 +122,47 @@ def measure_floor(paths: dict[str, str], workers: int) -> dict:
     return {"wall": wall, "cpu": cpu, "cells": int(cells), "stations": len(st)}
 
 
+def _read_windows(path: str, wins: list, cache: int) -> None:
+    import rasterio
+
+    with rasterio.Env(GDAL_CACHEMAX=cache), rasterio.open(path) as ds:
+        for w in wins:
+            ds.read(1, window=w)
+
+
+def measure_floor_pool(paths: dict[str, str], workers: int) -> dict:
+    """The floor's windows shared among ``workers`` forked processes (consecutive parts).
+
+    What reading alone costs on the cores the pool uses: the pool's own floor.
+    """
+    import multiprocessing
+
+    import numpy as np
+    import rasterio
+    from rasterio.windows import Window
+
+    from trajectory.params import Settings
+    from trajectory.sections import station_cell_ranges, to_pixel
+
+    _, st, _, (x, y) = _sections(paths)
+    cache = int(Settings().dem_cache * 2**20)
+    with rasterio.open(paths["dem"]) as ds:
+        c, r = to_pixel(ds.transform, x, y)
+        ext = station_cell_ranges(c, r, width=ds.width, height=ds.height)
+    wins = [Window(int(c0), int(r0), int(c1 - c0), int(r1 - r0))
+            for c0, c1, r0, r1 in ext if c1 > c0 and r1 > r0]
+    ctx = multiprocessing.get_context("fork")
+    parts = [list(p) for p in np.array_split(np.array(wins, dtype=object), max(workers, 1))]
+    t, cpu0 = time.perf_counter(), _cpu()
+    procs = [ctx.Process(target=_read_windows, args=(paths["dem"], p, cache)) for p in parts]
+    for p in procs:
+        p.start()
+    for p in procs:
+        p.join()
+    wall, cpu = time.perf_counter() - t, _cpu() - cpu0
+    return {"wall": wall, "cpu": cpu, "stations": len(st)}
+
+
 def measure_blocks(paths: dict[str, str], workers: int) -> dict:
     """Each internal block of the tiles that the samples touch, read once from its tile."""
     import numpy as np
@@ -209,8 +252,9 @@ def measure_naive(paths: dict[str, str], workers: int) -> dict:
             "stations": len(st)}
 
 
-MEASURES = {"floor": measure_floor, "blocks": measure_blocks, "engine": measure_engine,
-            "serial": measure_assess, "pool": measure_assess, "naive": measure_naive}
+MEASURES = {"floor": measure_floor, "floor_pool": measure_floor_pool, "blocks": measure_blocks,
+            "engine": measure_engine, "serial": measure_assess, "pool": measure_assess,
+            "naive": measure_naive}
 
 
 def _child(kind: str, paths_json: str, workers: int) -> None:
@@ -237,7 +281,8 @@ def _run_child(kind: str, paths: dict, workers: int) -> dict:
 # ------------------------------------------------------------------ report
 def bench(lengths: list[float], folder: Path, *, repeat: int, workers: int,
           naive: bool) -> dict:
-    kinds = ["floor", "blocks", "engine", "serial", "pool"] + (["naive"] if naive else [])
+    kinds = ["floor", "floor_pool", "blocks", "engine", "serial", "pool"]
+    kinds += ["naive"] if naive else []
     report: dict = {"cores": workers, "repeat": repeat, "lengths": {}}
     for km in lengths:
         paths = build(folder / f"{km:g}km", km * 1000.0)
@@ -246,7 +291,7 @@ def bench(lengths: list[float], folder: Path, *, repeat: int, workers: int,
         runs: dict[str, list[dict]] = {k: [] for k in kinds}
         for _ in range(repeat):  # interleaved, so background load hits every kind alike
             for k in kinds:
-                runs[k].append(_run_child(k, paths, workers if k == "pool" else 1))
+                runs[k].append(_run_child(k, paths, workers if k.endswith("pool") else 1))
         best = {k: min(r, key=lambda x: x["wall"]) for k, r in runs.items()}
         for k, r in runs.items():
             best[k] = dict(best[k], rss_mb=max(x["rss_mb"] for x in r),
@@ -294,6 +339,11 @@ def print_report(rep: dict) -> None:
         if "naive" in per_km:
             print(f"per km: naive / serial = {per_km['naive'] / per_km['serial']:.1f} "
                   f"(target >= 20; read as serial within 2x the floor, the binding one)")
+        pf = per_km["floor_pool"]
+        print(f"per km: pool / floor read on {cores} processes = {per_km['pool'] / pf:.2f} "
+              f"(reading alone on {cores} processes = {pf / (fl / cores):.2f} x floor/{cores})")
+        eff = per_km["pool"] / (per_km["serial"] / cores)
+        print(f"per km: pool / (serial / {cores}) = {eff:.2f} (parallel overhead of the job)")
         for k in ("serial", "pool"):
             key = "rss_children_mb" if k == "pool" else "rss_mb"
             print(f"peak memory {k}: {ks[-1]:g} km / {ks[0]:g} km = "

@@ -275,25 +275,25 @@ def validate_conditions(raw: pd.DataFrame, *, spatial: bool = False,
         findings.append(f"{row(i)}, column near_structure: {near.iloc[i]!r} must be yes or no")
     out["near_structure"] = near.isin(_YES).to_numpy(float)
 
-    # what each row's freeboard method needs
-    for r in range(n):
-        m = out["freeboard_method"].iloc[r]
-        has_t, has_p = np.isfinite(out["tm10"].iloc[r]), np.isfinite(out["tp"].iloc[r])
-        if has_t and has_p:
-            findings.append(f"{row(r)}, columns tm10 and tp: give one period, not both")
-        if m in WAVE_METHODS:
-            if not np.isfinite(out["hm0"].iloc[r]):
-                findings.append(f"{row(r)}, column hm0: empty; freeboard_method {m} needs "
-                                "the wave height")
-            if not (has_t or has_p):
-                findings.append(f"{row(r)}, columns tm10/tp: both empty; freeboard_method "
-                                f"{m} needs a wave period")
-        if m == "overtopping" and not np.isfinite(out["q_allow"].iloc[r]):
-            findings.append(f"{row(r)}, column q_allow: empty; freeboard_method overtopping "
-                            "needs the allowed discharge")
-        if m == "constant" and not np.isfinite(out["fixed_freeboard"].iloc[r]):
-            findings.append(f"{row(r)}, column fixed_freeboard: empty; freeboard_method "
-                            "constant needs it")
+    # what each row's freeboard method needs (findings in row order)
+    m = out["freeboard_method"].to_numpy(object)
+    has_t, has_p = np.isfinite(out["tm10"].to_numpy(float)), np.isfinite(out["tp"].to_numpy(float))
+    waves = np.isin(m, list(WAVE_METHODS))
+    needs = [
+        (has_t & has_p, lambda r: "columns tm10 and tp: give one period, not both"),
+        (waves & ~np.isfinite(out["hm0"].to_numpy(float)),
+         lambda r: f"column hm0: empty; freeboard_method {m[r]} needs the wave height"),
+        (waves & ~(has_t | has_p),
+         lambda r: f"columns tm10/tp: both empty; freeboard_method {m[r]} needs a wave period"),
+        ((m == "overtopping") & ~np.isfinite(out["q_allow"].to_numpy(float)),
+         lambda r: "column q_allow: empty; freeboard_method overtopping needs the allowed "
+                   "discharge"),
+        ((m == "constant") & ~np.isfinite(out["fixed_freeboard"].to_numpy(float)),
+         lambda r: "column fixed_freeboard: empty; freeboard_method constant needs it"),
+    ]
+    missing_terms = sorted((int(r), k) for k, (bad, _) in enumerate(needs)
+                           for r in np.flatnonzero(bad))
+    findings += [f"{row(r)}, {needs[k][1](r)}" for r, k in missing_terms]
     tp = out["tp"].to_numpy(float)
     from_tp = np.isfinite(tp) & ~np.isfinite(out["tm10"].to_numpy(float))
     out["period_from_tp"] = from_tp

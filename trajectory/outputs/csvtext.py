@@ -33,9 +33,13 @@ def _column_text(col: pd.Series, fmt: str) -> list[str] | None:
     if kind in "iub":
         return [str(v) for v in col.to_numpy().tolist()]
     if kind == "O" or isinstance(col.dtype, pd.StringDtype):
-        vals = col.to_numpy(dtype=object, na_value=None)
-        return [_quote(v if isinstance(v, str) else str(v)) if v is not None
-                and not (isinstance(v, float) and v != v) else "" for v in vals.tolist()]
+        vals = col.to_numpy(dtype=object, na_value=None).tolist()
+        text = ["" if v is None or (isinstance(v, float) and v != v) else
+                v if isinstance(v, str) else str(v) for v in vals]
+        joined = "".join(text)
+        if any(c in joined for c in _SPECIAL):  # quote only where a field needs it
+            return [_quote(t) for t in text]
+        return text
     return None
 
 
