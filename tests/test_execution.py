@@ -166,9 +166,13 @@ def test_split_windows_read_the_same_values_as_one_window(rough_raster):
         split = sample_profiles(ds, st, off)                   # default windows
         single = np.vstack([sample_profiles(ds, st.take(slice(i, i + 1)), off)
                             for i in range(len(st))])          # one window per station
+        batched = sample_profiles(ds, st, off, buffer_cells=1)  # each window its own batch
+        small = sample_profiles(ds, st, off, overhead=0, buffer_cells=60_000)
         transform = ds.transform
     np.testing.assert_array_equal(split, one)
     np.testing.assert_array_equal(single, one)
+    np.testing.assert_array_equal(batched, one)
+    np.testing.assert_array_equal(small, one)
     # reference: scipy's linear interpolation on the whole grid, cell centres at i + 0.5
     ref = RegularGridInterpolator((np.arange(2000) + 0.5, np.arange(2000) + 0.5),
                                   z.astype(float), method="linear")

@@ -221,25 +221,47 @@ def _plain_nodata(ds: rasterio.io.DatasetReader) -> bool:
     return flags <= {MaskFlags.nodata, MaskFlags.all_valid}
 
 
+#: DEM cells held at once while sampling a chunk (64 MB of float32): the windows of a
+#: chunk are read and interpolated in batches of at most this many cells (a single
+#: larger window is read alone)
+BUFFER_CELLS = 16_000_000
+
+
 def sample_profiles(ds: rasterio.io.DatasetReader, stations: Stations,
-                    offsets: np.ndarray, *, overhead: int = READ_OVERHEAD_CELLS
-                    ) -> np.ndarray:
+                    offsets: np.ndarray, *, overhead: int = READ_OVERHEAD_CELLS,
+                    buffer_cells: int = BUFFER_CELLS) -> np.ndarray:
     """Terrain levels (stations x offsets) along each cross-section, NaN for nodata.
 
     Consecutive stations are read through shared windows (:func:`window_groups`),
-    stored one after the other in one buffer and interpolated in one pass. The
-    cells are kept in the DEM's own data type and only the four neighbours of
-    each sample are converted, so the cost follows the cells the sections cover.
+    stored one after the other in one buffer of at most ``buffer_cells`` and
+    interpolated in one pass per buffer. The cells are kept in the DEM's own data
+    type and only the four neighbours of each sample are converted, so the cost
+    follows the cells the sections cover.
     """
     x, y = section_points(stations, offsets)
     cols, rows = to_pixel(ds.transform, x, y)
     ext = station_cell_ranges(cols, rows, width=ds.width, height=ds.height)
-    plain = _plain_nodata(ds)
+    out = np.full(x.shape, np.nan)
     groups = [(a, b, e) for a, b, e in window_groups(ext, overhead=overhead)
               if e[1] > e[0] and e[3] > e[2]]
-    out = np.full(x.shape, np.nan)
-    if not groups:
-        return out
+    batch: list = []
+    cells = 0
+    for g in groups:
+        size = (g[2][1] - g[2][0]) * (g[2][3] - g[2][2])
+        if batch and cells + size > buffer_cells:
+            _sample_batch(ds, batch, cols, rows, out)
+            batch, cells = [], 0
+        batch.append(g)
+        cells += size
+    if batch:
+        _sample_batch(ds, batch, cols, rows, out)
+    return out
+
+
+def _sample_batch(ds: rasterio.io.DatasetReader, groups: list, cols: np.ndarray,
+                  rows: np.ndarray, out: np.ndarray) -> None:
+    """Read the windows of ``groups`` into one buffer and interpolate their stations."""
+    plain = _plain_nodata(ds)
     # window of each group, and its place in the one buffer holding all the windows
     win = np.array([e for _, _, e in groups], dtype=np.int64)   # c0, c1, r0, r1
     gw, gh = win[:, 1] - win[:, 0], win[:, 3] - win[:, 2]
@@ -253,14 +275,12 @@ def sample_profiles(ds: rasterio.io.DatasetReader, stations: Stations,
         else:
             part[:] = np.ma.filled(ds.read(1, window=window, masked=True).astype(np.float64),
                                    np.nan)
-    # the group of each station (stations outside every window stay NaN)
+    # the window of each station's row of points
     first = np.array([a for a, _, _ in groups])
     stop = np.array([b for _, b, _ in groups])
     g = np.repeat(np.arange(len(groups)), stop - first)
     rows_in = np.concatenate([np.arange(a, b) for a, b in zip(first, stop, strict=True)])
-    col_g, row_g = (win[g, 0])[:, None], (win[g, 2])[:, None]
     out[rows_in] = _bilinear_flat(
-        flat, cols[rows_in], rows[rows_in], col0=col_g, row0=row_g,
+        flat, cols[rows_in], rows[rows_in], col0=win[g, 0][:, None], row0=win[g, 2][:, None],
         grid_width=gw[g][:, None], grid_height=gh[g][:, None], base=base[g][:, None],
         width=ds.width, height=ds.height, nodata=ds.nodata if plain else None)
-    return out
