@@ -97,12 +97,8 @@ def _cpu() -> float:
     return me.ru_utime + me.ru_stime + ch.ru_utime + ch.ru_stime
 
 
-def measure_floor(paths: dict[str, str], workers: int) -> dict:
-    """One window per section (the cells its samples and their neighbours need).
-
-    Read under the same GDAL block cache as a run (``Settings.dem_cache``): like for
-    like, and steadier than GDAL's default cache of 5 % of the memory.
-    """
+def _floor_windows(paths: dict[str, str]) -> tuple[list, int, int]:
+    """The floor's windows (one per section), the run's GDAL cache (bytes), the stations."""
     import rasterio
     from rasterio.windows import Window
 
@@ -110,24 +106,33 @@ def measure_floor(paths: dict[str, str], workers: int) -> dict:
     from trajectory.sections import station_cell_ranges, to_pixel
 
     _, st, _, (x, y) = _sections(paths)
-    cache = int(Settings().dem_cache * 2**20)
-    with rasterio.Env(GDAL_CACHEMAX=cache), rasterio.open(paths["dem"]) as ds:
+    with rasterio.open(paths["dem"]) as ds:
         c, r = to_pixel(ds.transform, x, y)
         ext = station_cell_ranges(c, r, width=ds.width, height=ds.height)
-        wins = [Window(int(c0), int(r0), int(c1 - c0), int(r1 - r0))
-                for c0, c1, r0, r1 in ext if c1 > c0 and r1 > r0]
-        t, cpu0 = time.perf_counter(), _cpu()
-        cells = sum(ds.read(1, window=w).size for w in wins)
-        wall, cpu = time.perf_counter() - t, _cpu() - cpu0
-    return {"wall": wall, "cpu": cpu, "cells": int(cells), "stations": len(st)}
+    wins = [Window(int(c0), int(r0), int(c1 - c0), int(r1 - r0))
+            for c0, c1, r0, r1 in ext if c1 > c0 and r1 > r0]
+    return wins, int(Settings().dem_cache * 2**20), len(st)
 
 
-def _read_windows(path: str, wins: list, cache: int) -> None:
+def _read_windows(path: str, wins: list, cache: int) -> int:
+    """Read ``wins`` of band 1 under a GDAL block cache of ``cache`` bytes; cells read."""
     import rasterio
 
     with rasterio.Env(GDAL_CACHEMAX=cache), rasterio.open(path) as ds:
-        for w in wins:
-            ds.read(1, window=w)
+        return sum(ds.read(1, window=w).size for w in wins)
+
+
+def measure_floor(paths: dict[str, str], workers: int) -> dict:
+    """One window per section (the cells its samples and their neighbours need).
+
+    Read under the same GDAL block cache as a run (``Settings.dem_cache``): like for
+    like, and steadier than GDAL's default cache of 5 % of the memory.
+    """
+    wins, cache, stations = _floor_windows(paths)
+    t, cpu0 = time.perf_counter(), _cpu()
+    cells = _read_windows(paths["dem"], wins, cache)
+    wall, cpu = time.perf_counter() - t, _cpu() - cpu0
+    return {"wall": wall, "cpu": cpu, "cells": int(cells), "stations": stations}
 
 
 def measure_floor_pool(paths: dict[str, str], workers: int) -> dict:
@@ -138,19 +143,8 @@ def measure_floor_pool(paths: dict[str, str], workers: int) -> dict:
     import multiprocessing
 
     import numpy as np
-    import rasterio
-    from rasterio.windows import Window
 
-    from trajectory.params import Settings
-    from trajectory.sections import station_cell_ranges, to_pixel
-
-    _, st, _, (x, y) = _sections(paths)
-    cache = int(Settings().dem_cache * 2**20)
-    with rasterio.open(paths["dem"]) as ds:
-        c, r = to_pixel(ds.transform, x, y)
-        ext = station_cell_ranges(c, r, width=ds.width, height=ds.height)
-    wins = [Window(int(c0), int(r0), int(c1 - c0), int(r1 - r0))
-            for c0, c1, r0, r1 in ext if c1 > c0 and r1 > r0]
+    wins, cache, stations = _floor_windows(paths)
     ctx = multiprocessing.get_context("fork")
     parts = [list(p) for p in np.array_split(np.array(wins, dtype=object), max(workers, 1))]
     t, cpu0 = time.perf_counter(), _cpu()
@@ -160,7 +154,7 @@ def measure_floor_pool(paths: dict[str, str], workers: int) -> dict:
     for p in procs:
         p.join()
     wall, cpu = time.perf_counter() - t, _cpu() - cpu0
-    return {"wall": wall, "cpu": cpu, "stations": len(st)}
+    return {"wall": wall, "cpu": cpu, "stations": stations}
 
 
 def measure_blocks(paths: dict[str, str], workers: int) -> dict:

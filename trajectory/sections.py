@@ -242,6 +242,7 @@ def sample_profiles(ds: rasterio.io.DatasetReader, stations: Stations,
     cols, rows = to_pixel(ds.transform, x, y)
     ext = station_cell_ranges(cols, rows, width=ds.width, height=ds.height)
     out = np.full(x.shape, np.nan)
+    plain = _plain_nodata(ds)
     groups = [(a, b, e) for a, b, e in window_groups(ext, overhead=overhead)
               if e[1] > e[0] and e[3] > e[2]]
     batch: list = []
@@ -249,19 +250,22 @@ def sample_profiles(ds: rasterio.io.DatasetReader, stations: Stations,
     for g in groups:
         size = (g[2][1] - g[2][0]) * (g[2][3] - g[2][2])
         if batch and cells + size > buffer_cells:
-            _sample_batch(ds, batch, cols, rows, out)
+            _sample_batch(ds, batch, cols, rows, out, plain=plain)
             batch, cells = [], 0
         batch.append(g)
         cells += size
     if batch:
-        _sample_batch(ds, batch, cols, rows, out)
+        _sample_batch(ds, batch, cols, rows, out, plain=plain)
     return out
 
 
 def _sample_batch(ds: rasterio.io.DatasetReader, groups: list, cols: np.ndarray,
-                  rows: np.ndarray, out: np.ndarray) -> None:
-    """Read the windows of ``groups`` into one buffer and interpolate their stations."""
-    plain = _plain_nodata(ds)
+                  rows: np.ndarray, out: np.ndarray, *, plain: bool) -> None:
+    """Read the windows of ``groups`` into one buffer and interpolate their stations.
+
+    ``plain``: the mask is just the nodata value (:func:`_plain_nodata`), so cells are
+    read raw in the DEM's type; otherwise masked, as float64 with NaN.
+    """
     # window of each group, and its place in the one buffer holding all the windows
     win = np.array([e for _, _, e in groups], dtype=np.int64)   # c0, c1, r0, r1
     gw, gh = win[:, 1] - win[:, 0], win[:, 3] - win[:, 2]

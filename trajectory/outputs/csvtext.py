@@ -32,7 +32,7 @@ def _column_text(col: pd.Series, fmt: str) -> list[str] | None:
         return [fmt % v if v == v else "" for v in col.to_numpy().tolist()]
     if kind in "iub":
         return [str(v) for v in col.to_numpy().tolist()]
-    if kind == "O" or isinstance(col.dtype, pd.StringDtype):
+    if kind == "O":   # objects and pandas' string dtypes
         vals = col.to_numpy(dtype=object, na_value=None).tolist()
         text = ["" if v is None or (isinstance(v, float) and v != v) else
                 v if isinstance(v, str) else str(v) for v in vals]
