@@ -125,7 +125,9 @@ def test_water_on_the_outer_side_is_flagged():
     z2 = _noisy(base, 100, 0.05, rng)
     z2[:, wet] = np.nan                         # or no returns at all
     dry = _noisy(base, 100, 0.05, rng)
-    m = read_profiles(np.vstack([z, z2, dry]), OFF, **KW)
+    # nodata is water where its edge lies at or below a plausible water level: here the
+    # design still water level (4 m) is given; the dry profiles end in no nodata at all
+    m = read_profiles(np.vstack([z, z2, dry]), OFF, **KW, water_level=4.0)
     assert m.outer_water[:200].mean() >= 0.95
     assert (m.flags[:200] & FLAGS["outer_water"] > 0).mean() >= 0.95
     assert m.outer_water[200:].mean() <= 0.02
@@ -134,3 +136,18 @@ def test_water_on_the_outer_side_is_flagged():
     assert np.median(m.outer_toe[:100]) == pytest.approx(21.5, abs=1.0)
     # the berm above water is still read
     assert np.median(m.outer_berm_level[:100]) == pytest.approx(3.5, abs=0.03)
+
+
+def test_nodata_above_any_plausible_water_level_is_the_survey_end():
+    # the same nodata edge at 2.5 m, with no water level known: it lies 1.5 m above the
+    # lowest dry return (the inner ground at 1.0 m), so the survey ended there
+    rng = np.random.default_rng(19)
+    base = composite()
+    z = _noisy(base, 50, 0.05, rng)
+    z[:, (OFF > 0) & (base < 2.5)] = np.nan
+    m = read_profiles(z, OFF, **KW)
+    assert (m.flags & FLAGS["outer_truncated"] > 0).all()
+    assert not m.outer_water.any()
+    # with a design water level below the edge it is not water either
+    m2 = read_profiles(z, OFF, **KW, water_level=2.0)
+    assert not m2.outer_water.any()

@@ -54,7 +54,7 @@ from .faults import (
 )
 from .lines import Centreline, read_centrelines, read_line_conditions, stack_stretches
 from .params import Settings
-from .profile import FLAGS, ProfileMetrics, flag_text, read_profiles
+from .profile import FLAGS, ProfileMetrics, breaks_text, flag_text, read_profiles
 from .profile_conditions import outer_characteristic_slope
 from .remedies import plan_options
 from .requirement import (
@@ -155,7 +155,7 @@ def _read_chunk(chunk: _Chunk) -> tuple[np.ndarray, ProfileMetrics]:
     z = np.where((chunk.side > 0)[:, None], z, z[:, ::-1])
     prof = read_profiles(z, chunk.offsets, object_width=s.object_width,
                          crest_search=s.crest_search, crest_tolerance=s.crest_tolerance,
-                         max_nodata=s.max_nodata)
+                         max_nodata=s.max_nodata, water_level=chunk.conditions.water_level)
     return z, prof
 
 
@@ -515,8 +515,11 @@ def _station_table(st: Stations, side: np.ndarray, cond: Conditions, sec: np.nda
         df[k] = cols[k]
     for name in ("outer_berm_level", "outer_berm_width", "outer_berm_slope", "inner_berm_level",
                  "inner_berm_width", "inner_berm_slope", "outer_lower_slope",
-                 "characteristic_slope"):
+                 "characteristic_slope", "crest_mean", "crest_level_outer", "crest_hole",
+                 "outer_slope_steepest", "inner_slope_steepest"):
         df[name] = cols[name]
+    df["outer_breaks"] = breaks_text(cols["outer_breaks"])
+    df["inner_breaks"] = breaks_text(cols["inner_breaks"])
     return df
 
 

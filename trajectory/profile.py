@@ -1,4 +1,4 @@
-"""Interpret cross-section profiles: crest, edges, toes, slopes, berms and water.
+"""Interpret cross-section profiles: crest, edges, slope segments, toes, berms and water.
 
 All functions work on a profile matrix ``z`` (stations x offsets) whose offsets
 are positive towards the OUTER (water) side; the caller orients it. Every
@@ -10,51 +10,60 @@ Definitions (documented in the README, "How each quantity is found"):
   than ``OBJECT_MIN_HEIGHT`` and four times the noise (posts, fences, hedges) are
   replaced by the ground under them;
 - crest top: the highest de-spiked level within ``crest_search`` of the centreline;
-- crest: the contiguous run of samples around the top that lie within the
-  crest tolerance (at least three times the profile's own noise) of the top;
-- crest edges: where the fitted slope lines meet the crest level (within the run);
-  crest width: their distance; crest level: the mean of the levels between the
-  edges (unbiased by noise, unlike the maximum; not lowered by shoulder samples);
-- toe: going down from a crest edge, the first point where the ground is
-  flatter than 1:``TOE_COT`` and falls less than ``TOE_DROP`` over the next
-  ``TOE_LOOKAHEAD`` metres (a berm, which is followed by more slope, is not a toe);
-- slope: least-squares line through the samples from the edge down to the first
-  flat part (a berm or the toe), leaving out the first and last 10 % of that
-  length (by position: trimming by level would flatten noisy fits); reported as
-  n of a 1:n slope, with the fit's root-mean-square residual as a quality figure;
-- berm: the first part of a slope much flatter than the slope above it (see
-  :func:`_berm_side`), with its level, width between the slope lines and gradient;
-- water: the outer side ends in flat, noise-free returns or nodata beyond its toe;
+- crest: the samples within the crest tolerance of the top, extended over the flat
+  top (flatter than 1:12, at most ``CREST_MAX_FALL`` below the top: a road with a
+  cross-fall) to where the flanks begin;
+- each side from there outward (:mod:`trajectory.profile_sides`): runs of slope, one or
+  two straight segments each (a knee), separated by flat parts; a flat part of any
+  width is a berm when more slope follows down to lower ground, else the toe;
+- crest edges: where each flank's upper segment meets the crest's level (the
+  terrain's shoulder); crest width: their distance; crest level: the mean of the
+  measured levels between the edges, or the crest's water-side edge level where a
+  resolved cross-fall makes that lower;
+- slope: the least-squares line from the edge down to the first berm or the toe,
+  trimmed at both ends, as n of a 1:n slope (the representative slope), with the
+  steepest segment and the breakline of each side beside it;
+- nodata: counted in the levee's body (toe to toe); holes on the crest and its
+  shoulders are flagged from ``CREST_GAP_FLAG`` and make the crest no_data beyond
+  ``CREST_GAP_MAX``; nodata beyond the outer slope is water only where its edge
+  lies at or below a plausible water level, else the survey's end;
 - characteristic outer slope: :func:`characteristic_slope` (EurOtop 2018).
 """
 
 from __future__ import annotations
 
-import functools
 from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import ndimage, signal
+from scipy import ndimage
 
-#: a slope flatter than 1:TOE_COT counts as flat ground
-TOE_COT = 12.0
-#: ground that falls less than this (m) ...
-TOE_DROP = 0.5
-#: ... over this distance (m) beyond a flat point has reached the toe
-TOE_LOOKAHEAD = 15.0
-#: a flat part counts as a berm only this far (m) below the crest
-BERM_MIN_DROP = 0.5
-#: part of the edge-to-toe height left out at each end of the slope fit
-FIT_TRIM = 0.10
+from . import profile_sides as sides
+from .profile_sides import BERM_MIN_DROP, BERM_MIN_WIDTH, FIT_TRIM, FLAT_COT, TOE_DROP
+
+#: a slope flatter than 1:TOE_COT counts as flat ground (crest, berm, toe)
+TOE_COT = FLAT_COT
 #: objects must rise this much (m), and four times the noise, above the ground under them
 OBJECT_MIN_HEIGHT = 0.05
-#: a berm is a flat part at least this long (m) ...
-BERM_MIN_WIDTH = 2.0
-#: ... with the gradient taken by least squares over this length (m)
-BERM_WINDOW = 4.0
 #: flat, noise-free returns (or nodata) this long (m) beyond the outer toe are water
 WATER_MIN_LENGTH = 3.0
+#: the crest's flat top reaches at most this far (m) below the top (cross-fall)
+CREST_MAX_FALL = 1.5
+#: a fall across the crest smaller than this (m) is not read as a cross-fall
+CROSS_FALL_MIN = 0.05
+#: ... nor on a crest narrower than this (m)
+CROSS_FALL_MIN_WIDTH = 6.0
+#: the crest edge lies at most this far (m) beyond the crest's flat run
+EDGE_REACH = 2.0
+#: a hole (filled nodata) this long (m) on the crest or its shoulders is flagged ...
+CREST_GAP_FLAG = 1.5
+#: ... and one longer than this makes the crest no_data
+CREST_GAP_MAX = 5.0
+#: nodata beyond the outer slope is water if its edge is at most this far (m) above the
+#: lowest dry return of the section (or at or below the design water level)
+WATER_EDGE_TOLERANCE = 0.3
+
+__all__ = ["BERM_MIN_DROP", "BERM_MIN_WIDTH", "FIT_TRIM", "TOE_DROP"]
 
 # quality flags (bit values); names are the public text in the `flags` field
 FLAGS = {
@@ -69,6 +78,7 @@ FLAGS = {
     "outer_water": 256,     # outer side ends in water (flat returns or nodata) above its toe
     "slope_extrapolated": 512,  # characteristic slope extended below the lowest dry point
     "sections_cross": 1024,  # the section crosses a neighbour within its half-width
+    "crest_interpolated": 2048,  # a hole of CREST_GAP_FLAG or more on the crest or shoulders
 }
 #: residual (m) above which a slope fit is flagged as poor
 POOR_FIT_RMSE = 0.15
@@ -78,7 +88,7 @@ POOR_FIT_RMSE = 0.15
 class ProfileMetrics:
     """Measured profile quantities, one entry per station (NaN where unknown)."""
 
-    crest_level: np.ndarray
+    crest_level: np.ndarray       # the level assessed: crest_mean, or crest_level_outer if lower
     crest_offset: np.ndarray     # centre of the crest, m towards the outer side
     crest_width: np.ndarray
     outer_edge: np.ndarray       # offsets (m, + outer) of the crest edges
@@ -106,6 +116,15 @@ class ProfileMetrics:
     inner_berm_slope: np.ndarray
     outer_lower_slope: np.ndarray  # n of 1:n below the outer berm (= outer_slope if none)
     outer_water: np.ndarray       # bool: the outer side ends in water above its toe
+    crest_mean: np.ndarray        # mean measured level between the edges
+    crest_level_outer: np.ndarray  # level of the crest's water-side edge (cross-fall line)
+    crest_hole: np.ndarray        # longest hole (m) on the crest and its shoulders
+    outer_slope_steepest: np.ndarray  # n of 1:n of the steepest segment of each side
+    inner_slope_steepest: np.ndarray
+    outer_toe_dry: np.ndarray     # bool: the outer toe is on dry ground (a flat part)
+    outer_data_end_level: np.ndarray  # level where the outer side's data ends (NaN: none)
+    outer_breaks: np.ndarray      # (stations x breaks x 2) offset, level of each break
+    inner_breaks: np.ndarray
 
 
 def fill_gaps(z: np.ndarray) -> np.ndarray:
@@ -251,192 +270,29 @@ def _line_fit(x: np.ndarray, zv: np.ndarray, w: np.ndarray) -> tuple[np.ndarray,
             np.where(few, np.nan, se_b), cnt)
 
 
-def _slope_side(s: np.ndarray, crest: np.ndarray, step: float,
-                zv: np.ndarray | None = None) -> dict[str, np.ndarray]:
-    """Toe and fitted slope on one side; ``s`` runs from the crest edge outward.
-
-    ``zv`` is ``np.nan_to_num(s)`` when the caller has it.
-    """
-    n, k = s.shape
-    dist = np.arange(k) * step
-    q = max(int(round(1.0 / step)), 1)
-    pad = np.concatenate([np.repeat(s[:, :1], q, axis=1), s, np.repeat(s[:, -1:], q, axis=1)],
-                         axis=1)
-    grad = (pad[:, 2 * q:] - pad[:, :-2 * q]) / (2 * q * step)  # dz/d(distance)
-    gentle = grad > -1.0 / TOE_COT        # flatter than 1:TOE_COT (NaN: not)
-    look = max(int(round(TOE_LOOKAHEAD / step)), 1)
-    beyond = np.isnan(s)
-    s_inf = np.where(beyond, np.inf, s)
-    ahead_min = ndimage.minimum_filter1d(s_inf, size=look, axis=1, mode="nearest",
-                                         origin=-(look // 2))
-    fall_ahead = s - ahead_min
-    flat = gentle & (fall_ahead < TOE_DROP) & np.isfinite(s)
-    flat[:, 0] = False
-    has_toe = flat.any(axis=1)
-    first_flat = np.argmax(flat, axis=1)
-    last_valid = k - 1 - np.argmax(~beyond[:, ::-1], axis=1)
-    toe = np.where(has_toe, first_flat, last_valid)
-    toe_level = s[np.arange(n), toe]
-    # the slope is fitted from the edge down to the first flat part (a berm or the
-    # toe): the upper slope, which governs run-up and overtopping
-    any_flat = gentle & (s < (crest - BERM_MIN_DROP)[:, None])
-    seg_end = np.where(any_flat.any(axis=1), np.argmax(any_flat, axis=1), toe)
-    seg_end = np.minimum(seg_end, toe)
-    kk = np.arange(k)[None, :]
-    # trimmed by position, not by level: selecting noisy samples by their level would
-    # flatten the fitted slope (truncation on the fitted variable)
-    # (the lower end also clears the gradient window, by which the flat part is found late)
-    trim = np.rint(FIT_TRIM * seg_end).astype(int)[:, None]
-    w = ((kk >= trim) & (kk <= seg_end[:, None] - np.maximum(trim, q)) & ~beyond).astype(float)
-    a, b, res, se_b, cnt = _line_fit(dist, np.nan_to_num(s) if zv is None else zv, w)
-    with np.errstate(all="ignore"):
-        cot = np.where((cnt >= 3) & (b < 0), -1.0 / b, np.nan)
-        se_cot = np.where(np.isfinite(cot), se_b / b**2, np.nan)
-    return {"toe": toe * step, "toe_level": toe_level, "cot": cot,
-            "rmse": np.where(cnt >= 3, res, np.nan), "truncated": ~has_toe,
-            "fit_count": cnt, "cot_se": se_cot, "toe_j": toe, "a": a, "b": b}
-
-
-@functools.lru_cache(maxsize=16)
-def _savgol_slope(win: int, step: float) -> np.ndarray:
-    """Savitzky-Golay convolution coefficients of the first derivative, first order."""
-    return signal.savgol_coeffs(win, 1, deriv=1, delta=step)
-
-
-def _flatter_than(sf: np.ndarray, limit: np.ndarray, relevant: np.ndarray, win: int,
-                  step: float) -> np.ndarray:
-    """``-grad < limit`` with ``grad`` the Savitzky-Golay gradient of ``sf`` over ``win``.
-
-    The gradient is ``signal.savgol_filter(sf, win, 1, deriv=1, delta=step, axis=1,
-    mode="interp")``. Inside the rows it is that filter's own convolution. Within
-    ``win // 2`` of the ends, ``mode="interp"`` fits a line to the first (last) ``win``
-    samples: the same least-squares gradient the convolution gives next to the ends, up
-    to rounding (about 1e-15). That value is used there unless it lies within 1e-9 of
-    ``limit`` at a ``relevant`` cell; then the filter itself is run, so every comparison
-    is exactly the filter's.
-    """
-    k = sf.shape[1]
-    h = win // 2
-    grad = ndimage.convolve1d(sf, _savgol_slope(win, step), axis=1, mode="constant")
-    grad[:, :h] = grad[:, h:h + 1]
-    grad[:, k - h:] = grad[:, k - h - 1:k - h]
-    with np.errstate(invalid="ignore"):
-        near = (np.abs(-grad - limit[:, None]) <= 1e-9) & relevant
-    if near[:, :h].any() or near[:, k - h:].any():
-        grad = signal.savgol_filter(sf, win, 1, deriv=1, delta=step, axis=1, mode="interp")
-    return -grad < limit[:, None]
-
-
-def _berm_side(s: np.ndarray, crest: np.ndarray, side: dict[str, np.ndarray],
-               step: float, *, filled: np.ndarray | None = None, zv: np.ndarray | None = None,
-               ) -> dict[str, np.ndarray]:
-    """First berm between a crest edge and its toe; ``s`` runs from the edge outward.
-
-    A berm is a run at least ``BERM_MIN_WIDTH`` long whose gradient (least squares
-    over ``BERM_WINDOW``) is flatter than 1:``TOE_COT`` and than 40 % of the upper
-    slope, lying at least ``BERM_MIN_DROP`` below the crest and above the toe. Its
-    level is the mean over the run; its ends are where the fitted slope lines above
-    and below meet that level, so the blur of the gradient window does not shorten it.
-
-    ``filled`` is ``fill_gaps(s)`` and ``zv`` is ``np.nan_to_num(s)`` when the caller
-    has them.
-    """
-    n, k = s.shape
-    dist = np.arange(k) * step
-    win = max(int(round(BERM_WINDOW / step)) | 1, 5)
-    if k < win:
-        nan = np.full(n, np.nan)
-        return {"level": nan, "width": nan, "slope": nan, "lower_cot": nan.copy()}
-    sf = fill_gaps(s) if filled is None else filled
-    if np.isnan(sf).any():
-        sf = np.where(np.isnan(sf), 0.0, sf)
-    zv = np.nan_to_num(s) if zv is None else zv
-    tan_up = np.where(side["b"] < 0, -side["b"], np.nan)
-    limit = np.minimum(1.0 / TOE_COT, 0.4 * tan_up)
-    toe_j, toe_level = side["toe_j"], side["toe_level"]
-    j = np.arange(k)[None, :]
-    finite = np.isfinite(s)
-    relevant = (finite & (j >= 1) & (j < toe_j[:, None])
-                & (s < (crest - BERM_MIN_DROP)[:, None])
-                & (s > (toe_level + BERM_MIN_DROP)[:, None]))
-    cand = _flatter_than(sf, limit, relevant, win, step) & relevant
-    has = cand.any(axis=1)
-    lo, hi = _run_around(cand, np.argmax(cand, axis=1))
-    has &= (hi - lo + 1) * step >= BERM_MIN_WIDTH
-    # level, gradient and ends are measured on the rows with a berm only
-    r = np.flatnonzero(has)
-    lo, hi, toe_j, zv, finite = lo[r], hi[r], toe_j[r], zv[r], finite[r]
-    a_up, b_up = side["a"][r], side["b"][r]
-    wt = ((j >= lo[:, None]) & (j <= hi[:, None])).astype(float)
-    _, gb, _, _, cnt = _line_fit(dist, zv, wt)
-    with np.errstate(all="ignore"):
-        level = (wt * zv).sum(1) / cnt
-    # the slope line below the berm: from the run's end down to the toe, trimmed
-    trim = np.rint(FIT_TRIM * (toe_j - hi)).astype(int)[:, None]
-    q = max(int(round(1.0 / step)), 1)   # the toe is found this late (its gradient window)
-    below = ((j > (hi[:, None] + trim)) & (j <= (toe_j[:, None] - np.maximum(trim, q)))
-             & finite)
-    al, bl, _, _, cnt_l = _line_fit(dist, zv, below.astype(float))
-    with np.errstate(all="ignore"):
-        x1 = np.where(b_up < 0, (level - a_up) / b_up, lo * step)
-        x1 = np.clip(x1, 0.0, lo * step + 0.5 * BERM_WINDOW)
-        ok_l = (cnt_l >= 3) & (bl < 0)
-        x2 = np.where(ok_l, (level - al) / bl, hi * step + 0.5 * BERM_WINDOW)
-        x2 = np.clip(x2, hi * step, toe_j * step)
-        lower_cot = np.where(ok_l, -1.0 / bl, np.nan)
-
-    def rows(v: np.ndarray, other: np.ndarray | float = np.nan) -> np.ndarray:
-        full = np.array(np.broadcast_to(other, (n,)), dtype=float)
-        full[r] = v
-        return full
-
-    return {"level": rows(level), "width": rows(x2 - x1), "slope": rows(-gb),
-            "lower_cot": rows(lower_cot, side["cot"]), "start": rows(x1)}
-
-
-def _water_outer(raw: np.ndarray, wet: np.ndarray, toe_j: np.ndarray, noise: np.ndarray,
-                 step: float) -> np.ndarray:
+def _water_outer(raw: np.ndarray, toe_j: np.ndarray, noise: np.ndarray, step: float
+                 ) -> np.ndarray:
     """True where the outer side ends in water at its toe.
 
-    ``raw`` runs from the outer crest edge outward (gaps filled, not smoothed) and
-    ``wet`` marks nodata there. Water returns are flat and free of the ground's
-    noise: over ``WATER_MIN_LENGTH`` beyond the toe, 90 % of the samples are nodata
-    or have a second difference below a tenth of the profile's noise (profiles with
-    less than 1 cm of noise carry no such contrast; only nodata counts there).
+    ``raw`` runs from the outer crest end outward (not smoothed; NaN where there is no
+    measured return). Water returns are flat and free of the ground's noise: over
+    ``WATER_MIN_LENGTH`` beyond the toe, 90 % of the samples have a second difference
+    below a tenth of the profile's noise (profiles with less than 1 cm of noise carry
+    no such contrast). Nodata beyond the toe is judged by its level instead
+    (:func:`trajectory.profile_sides.read_side`).
     """
     n, k = raw.shape
     d2 = np.abs(np.pad(raw[:, 2:] - 2 * raw[:, 1:-1] + raw[:, :-2], ((0, 0), (1, 1)),
                        mode="edge"))
     thr = np.maximum(0.003, 0.1 * np.nan_to_num(noise))[:, None]
     calm = (d2 < thr) & (np.nan_to_num(noise) > 0.01)[:, None]
-    like = (calm & np.isfinite(raw)) | wet
+    like = calm & np.isfinite(raw)
     run = max(int(round(WATER_MIN_LENGTH / step)), 2)
     c = np.concatenate([np.zeros((n, 1)), np.cumsum(like, axis=1)], axis=1)
     a = np.clip(toe_j + 1, 0, k)
     b = np.clip(toe_j + 1 + run, 0, k)
     got = np.take_along_axis(c, b[:, None], 1)[:, 0] - np.take_along_axis(c, a[:, None], 1)[:, 0]
     return (b - a >= run // 2) & (got >= 0.9 * (b - a)) & (b > a)
-
-
-def _crest_ends(offsets: np.ndarray, lo: np.ndarray, hi: np.ndarray, crest: np.ndarray,
-                out: dict[str, np.ndarray], inn: dict[str, np.ndarray], step: float
-                ) -> tuple[np.ndarray, np.ndarray]:
-    """Offsets where the fitted outer and inner slope lines reach the crest level.
-
-    Kept within the crest run (and at most one sample beyond its ends); the run's
-    ends where a side has no fitted slope.
-    """
-    span = (hi - lo) * step
-
-    def end(side: dict[str, np.ndarray]) -> np.ndarray:
-        with np.errstate(all="ignore"):
-            dist = (crest - side["a"]) / side["b"]
-        return np.where((side["b"] < 0) & np.isfinite(dist), np.clip(dist, -span, step), 0.0)
-
-    x_out = offsets[hi] + end(out)
-    x_in = offsets[lo] - end(inn)
-    swap = x_in > x_out   # a crest narrower than the fits resolve: keep the run's ends
-    return np.where(swap, offsets[hi], x_out), np.where(swap, offsets[lo], x_in)
 
 
 @dataclass(frozen=True)
@@ -470,15 +326,50 @@ class _Cleaned:
     clean: np.ndarray
 
 
+def _gap_run_length(gaps: np.ndarray) -> np.ndarray:
+    """Length (in samples) of the nodata run each sample belongs to (0 for data)."""
+    def forward(g: np.ndarray) -> np.ndarray:
+        c = np.cumsum(g, axis=1)
+        return c - np.maximum.accumulate(np.where(~g, c, 0), axis=1)
+
+    return np.where(gaps, forward(gaps) + forward(gaps[:, ::-1])[:, ::-1] - 1, 0)
+
+
+def _crest_line(offsets: np.ndarray, clean: np.ndarray, w: np.ndarray, noise: np.ndarray
+                ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Mean level, and the cross-fall line z = a + b x where it is resolved, of crest samples.
+
+    The fall across the crest counts where it exceeds ``CROSS_FALL_MIN`` and three
+    standard errors of the fitted line's gradient (at least the profile noise's) times the
+    crest's length, on crests at least ``CROSS_FALL_MIN_WIDTH`` wide; elsewhere
+    the line is flat at the mean (noise is not read as a cross-fall).
+    """
+    x = np.broadcast_to(offsets[None, :], clean.shape)
+    a, b, _, se_fit, cnt = _line_fit(x, np.where(w > 0, clean, 0.0), w)
+    with np.errstate(all="ignore"):
+        sxx = (w * (x - (w * x).sum(1, keepdims=True) / cnt[:, None]) ** 2).sum(1)
+        se_b = np.fmax(se_fit, np.nan_to_num(noise) / np.sqrt(sxx))
+        mean = (w * np.nan_to_num(clean)).sum(1) / cnt
+        span = np.where(w > 0, x, -np.inf).max(1) - np.where(w > 0, x, np.inf).min(1)
+        fall = np.abs(b) * span
+        real = (fall > CROSS_FALL_MIN) & (fall > 3.0 * se_b * span) & (span >= CROSS_FALL_MIN_WIDTH)
+    return mean, np.where(real, a, mean), np.where(real, b, 0.0)
+
+
 def read_profiles(
     z: np.ndarray, offsets: np.ndarray, *, object_width: float, crest_search: float,
-    crest_tolerance: float, max_nodata: float,
+    crest_tolerance: float, max_nodata: float, water_level: np.ndarray | float | None = None,
 ) -> ProfileMetrics:
-    """Measure crest and slopes of every profile in ``z`` (offsets + towards outer side)."""
+    """Measure crest and slopes of every profile in ``z`` (offsets + towards outer side).
+
+    ``water_level``: the design still water level per station, if known; nodata beyond
+    the outer slope whose edge lies at or below it (or at the lowest dry returns) is
+    water, otherwise the survey's end (``outer_truncated``).
+    """
     n, m = z.shape
     step = float(offsets[1] - offsets[0])
+    rows = np.arange(n)
     gaps = np.isnan(z)
-    nodata_fraction = gaps.mean(axis=1)
     filled = _fill_gaps(z, ~gaps)
     empty = gaps.all(axis=1)
     filled[empty] = 0.0
@@ -487,97 +378,174 @@ def read_profiles(
     # a light running median steadies the search for the top and the crest's extent
     d = _median3(clean)
 
+    # the crest top: the highest de-spiked level near the centreline; the crest: the
+    # samples within the tolerance of it, extended over the flat top (a road with a
+    # cross-fall) to where the flanks begin
     zone = np.abs(offsets) <= crest_search
     dz = np.where(zone[None, :], d, -np.inf)
     top_j = np.argmax(dz, axis=1)
-    rows = np.arange(n)
     top = dz[rows, top_j]
     tol = np.maximum(crest_tolerance, 3.0 * np.nan_to_num(noise))
-    on_crest = (d >= (top - tol)[:, None]) & zone[None, :]
-    lo, hi = _run_around(on_crest, top_j)
+    near_top = (d >= (top - tol)[:, None]) & zone[None, :]
+    lo0, hi0 = _run_around(near_top, top_j)
     j = np.arange(m)[None, :]
-    in_crest = (j >= lo[:, None]) & (j <= hi[:, None])
-    cells = in_crest.sum(1)
-    crest_level = np.where(in_crest, clean, 0.0).sum(1) / cells
+    seed = (j >= lo0[:, None]) & (j <= hi0[:, None])
+    flat = sides.flat_mask(sides.gradient(d, step, noise), step)
+    crestish = (seed | flat) & zone[None, :] & (d >= (top - CREST_MAX_FALL)[:, None])
+    lo, hi = _run_around(crestish, top_j)
     zone_j = np.flatnonzero(zone)
     off_centre = (lo <= zone_j[0]) | (hi >= zone_j[-1])
+    in_run = (j >= lo[:, None]) & (j <= hi[:, None])
+    measured = ~gaps
+    _, ca, cb = _crest_line(offsets, clean, (in_run & measured).astype(float), noise)
 
-    # slopes are read on the de-spiked levels, so posts on a slope do not bend the fit;
-    # each side runs from its crest end to the section's end
+    # each side from its crest end outward: slope segments, berms, toe, data end
     out_walk, in_walk = _SideWalk.of(d, hi, +1), _SideWalk.of(d, lo, -1)
-    out = _slope_side(out_walk.s, crest_level, step, zv=out_walk.zv)
-    inn = _slope_side(in_walk.s, crest_level, step, zv=in_walk.zv)
-    # the crest ends where the fitted slope lines meet the crest level: samples on the
-    # shoulders (within the tolerance but already on a slope) must not pull the level down
-    x_out, x_in = _crest_ends(offsets, lo, hi, crest_level, out, inn, step)
-    inner = (in_crest
-             & (offsets[None, :] >= (x_in + 0.5 * step)[:, None])
-             & (offsets[None, :] <= (x_out - 0.5 * step)[:, None]))
-    n_inner = inner.sum(1)
-    with np.errstate(all="ignore"):
-        refined = np.where(inner, clean, 0.0).sum(1) / n_inner
-    crest_level = np.where(n_inner >= 1, refined, crest_level)
-    cells = np.where(n_inner >= 1, n_inner, cells)
-    berm_out = _berm_side(out_walk.s, crest_level, out, step, filled=out_walk.near,
-                          zv=out_walk.zv)
-    berm_in = _berm_side(in_walk.s, crest_level, inn, step, filled=in_walk.near,
-                         zv=in_walk.zv)
-    wet = np.take(gaps, out_walk.flat) & out_walk.inside
-    # contrast with the land side's noise (water returns lower the whole row's estimate)
-    land_noise = robust_noise(filled[:, offsets <= 0], step)
-    raw_out = np.where(out_walk.inside, np.take(clean, out_walk.flat), np.nan)
-    water = _water_outer(raw_out, wet, out["toe_j"], land_noise, step)
+    meas_out = np.take(measured, out_walk.flat) & out_walk.inside
+    meas_in = np.take(measured, in_walk.flat) & in_walk.inside
+    lowest_dry = np.where(measured, d, np.inf).min(axis=1)
+    water_below = lowest_dry + WATER_EDGE_TOLERANCE
+    if water_level is not None:
+        water_below = np.fmax(water_below, np.broadcast_to(np.asarray(water_level, float), (n,)))
+    level_hi = ca + cb * offsets[hi]
+    level_lo = ca + cb * offsets[lo]
+    out = sides.read_side(out_walk.s, meas_out, out_walk.near, level_hi, step, noise,
+                          water_below=water_below)
+    inn = sides.read_side(in_walk.s, meas_in, in_walk.near, level_lo, step, noise)
 
+    # the crest edges: where the upper segment of each flank meets the crest's level
+    # (the terrain's own shoulder, not a line through the whole slope)
+    span = (hi - lo) * step
+
+    def edge(side: sides.SideReading, level: np.ndarray) -> np.ndarray:
+        with np.errstate(all="ignore"):
+            x = (level - side.edge_a) / side.edge_b
+        ok = (side.edge_b < 0) & np.isfinite(x)
+        return np.where(ok, np.clip(x, -0.5 * span, EDGE_REACH), 0.0)
+
+    x_out = offsets[hi] + edge(out, level_hi)
+    x_in = offsets[lo] - edge(inn, level_lo)
+    swap = x_in > x_out   # a crest narrower than the fits resolve: keep the run's ends
+    x_out, x_in = np.where(swap, offsets[hi], x_out), np.where(swap, offsets[lo], x_in)
+
+    # the crest level: the mean of the measured samples between the edges (filled
+    # gaps are not averaged in); its water-side edge level from the cross-fall line
+    between = (in_run & (offsets[None, :] >= (x_in + 0.5 * step)[:, None])
+               & (offsets[None, :] <= (x_out - 0.5 * step)[:, None]))
+    inner = between & measured
+    use = np.where((inner.sum(1) >= 1)[:, None], inner, in_run & measured)
+    cells = use.sum(1)
+    crest_mean, ca, cb = _crest_line(offsets, clean, use.astype(float), noise)
+    crest_outer = np.where(cb != 0.0, ca + cb * x_out, crest_mean)
+    # the lower of the two enters the margin (see the README)
+    crest_level = np.fmin(crest_mean, crest_outer)
+
+    # holes on the crest and its shoulders (filled, not measured)
+    run_len = _gap_run_length(gaps) * step
+    around = ((offsets[None, :] >= (x_in - 1.0)[:, None])
+              & (offsets[None, :] <= (x_out + 1.0)[:, None]))
+    crest_hole = np.where(around, run_len, 0.0).max(axis=1)
+    crest_gap_share = (between & gaps).sum(1) / np.maximum(between.sum(1), 1)
+
+    outer_toe = offsets[hi] + out.toe
+    inner_toe = offsets[lo] - inn.toe
+    # missing data counts in the levee's body (toe to toe), not on the water beyond
+    body = ((offsets[None, :] > inner_toe[:, None] - 0.5 * step)
+            & (offsets[None, :] < outer_toe[:, None] + 0.5 * step))
+    with np.errstate(all="ignore"):
+        nodata_fraction = np.where(body, gaps, False).sum(1) / np.maximum(body.sum(1), 1)
+    nodata_fraction = np.where(empty, 1.0, nodata_fraction)
+
+    # water returns (flat and noise-free) beyond the outer toe are water too
+    wet = np.take(gaps, out_walk.flat) & out_walk.inside
+    land_noise = robust_noise(filled[:, offsets <= 0], step)
+    raw_out = np.where(out_walk.inside & ~wet, np.take(clean, out_walk.flat), np.nan)
+    toe_k = np.clip(np.ceil(out.toe / step).astype(int), 0, m - 1)
+    calm = _water_outer(raw_out, toe_k + 1, land_noise, step) & ~wet[rows, toe_k]
+    water = out.water | calm
+    toe_dry = out.toe_dry & ~calm
+    truncated_out = out.truncated & ~calm
+
+    too_holed = (crest_hole > CREST_GAP_MAX) | (crest_gap_share > 0.5)
     flags = np.zeros(n, dtype=np.int64)
-    flags |= np.where(nodata_fraction > max_nodata, FLAGS["nodata"], 0)
+    flags |= np.where((nodata_fraction > max_nodata) | too_holed, FLAGS["nodata"], 0)
     flags |= np.where((nodata_fraction > 0) & (nodata_fraction <= max_nodata),
                       FLAGS["nodata_gaps"], 0)
     flags |= np.where(off_centre, FLAGS["crest_off_centre"], 0)
-    flags |= np.where(out["truncated"], FLAGS["outer_truncated"], 0)
-    flags |= np.where(inn["truncated"], FLAGS["inner_truncated"], 0)
-    flags |= np.where(out["rmse"] > POOR_FIT_RMSE, FLAGS["poor_outer_fit"], 0)
-    flags |= np.where(inn["rmse"] > POOR_FIT_RMSE, FLAGS["poor_inner_fit"], 0)
-    flags |= np.where(np.isnan(out["cot"]), FLAGS["no_outer_slope"], 0)
+    flags |= np.where(truncated_out, FLAGS["outer_truncated"], 0)
+    flags |= np.where(inn.truncated, FLAGS["inner_truncated"], 0)
+    flags |= np.where(out.rmse > POOR_FIT_RMSE, FLAGS["poor_outer_fit"], 0)
+    flags |= np.where(inn.rmse > POOR_FIT_RMSE, FLAGS["poor_inner_fit"], 0)
+    flags |= np.where(np.isnan(out.cot), FLAGS["no_outer_slope"], 0)
     flags |= np.where(water, FLAGS["outer_water"], 0)
-    readable = (~empty) & (nodata_fraction <= max_nodata) & ~off_centre & np.isfinite(out["cot"])
+    flags |= np.where(crest_hole >= CREST_GAP_FLAG, FLAGS["crest_interpolated"], 0)
+    readable = ((~empty) & (nodata_fraction <= max_nodata) & ~off_centre
+                & np.isfinite(out.cot) & ~too_holed & (cells >= 1))
 
-    outer_edge = x_out
-    inner_edge = x_in
+    def breaks(side: sides.SideReading, origin: np.ndarray, sign: int, x_edge: np.ndarray,
+               level: np.ndarray) -> np.ndarray:
+        """The side's breakline in (offset from the centreline, level)."""
+        b = side.breaks.copy()
+        b[:, :, 0] = origin[:, None] + sign * b[:, :, 0]
+        b[:, 0, 0], b[:, 0, 1] = x_edge, level
+        return b
+
     nan = np.where(readable, 1.0, np.nan)  # no made-up numbers where unreadable
     metrics = ProfileMetrics(
         crest_level=crest_level * nan,
-        crest_offset=0.5 * (outer_edge + inner_edge) * nan,
-        crest_width=(outer_edge - inner_edge) * nan,
-        outer_edge=outer_edge * nan,
-        inner_edge=inner_edge * nan,
-        outer_toe=(outer_edge + out["toe"]) * nan,
-        inner_toe=(inner_edge - inn["toe"]) * nan,
-        outer_toe_level=out["toe_level"] * nan,
-        inner_toe_level=inn["toe_level"] * nan,
-        outer_slope=out["cot"] * nan,
-        inner_slope=inn["cot"] * nan,
-        outer_fit_rmse=out["rmse"] * nan,
-        inner_fit_rmse=inn["rmse"] * nan,
-        outer_slope_se=out["cot_se"] * nan,
-        outer_fit_count=out["fit_count"],
+        crest_offset=0.5 * (x_out + x_in) * nan,
+        crest_width=(x_out - x_in) * nan,
+        outer_edge=x_out * nan,
+        inner_edge=x_in * nan,
+        outer_toe=outer_toe * nan,
+        inner_toe=inner_toe * nan,
+        outer_toe_level=out.toe_level * nan,
+        inner_toe_level=inn.toe_level * nan,
+        outer_slope=out.cot * nan,
+        inner_slope=inn.cot * nan,
+        outer_fit_rmse=out.rmse * nan,
+        inner_fit_rmse=inn.rmse * nan,
+        outer_slope_se=out.cot_se * nan,
+        outer_fit_count=out.fit_count,
         crest_cells=cells,
         noise=noise,
         nodata_fraction=nodata_fraction,
         flags=flags,
         readable=readable,
-        outer_berm_level=berm_out["level"] * nan,
-        outer_berm_width=berm_out["width"] * nan,
-        inner_berm_level=berm_in["level"] * nan,
-        inner_berm_width=berm_in["width"] * nan,
-        outer_berm_slope=berm_out["slope"] * nan,
-        inner_berm_slope=berm_in["slope"] * nan,
-        outer_lower_slope=berm_out["lower_cot"] * nan,
+        outer_berm_level=out.berm_level * nan,
+        outer_berm_width=out.berm_width * nan,
+        inner_berm_level=inn.berm_level * nan,
+        inner_berm_width=inn.berm_width * nan,
+        outer_berm_slope=out.berm_slope * nan,
+        inner_berm_slope=inn.berm_slope * nan,
+        outer_lower_slope=out.lower_cot * nan,
         outer_water=water & readable,
+        crest_mean=crest_mean * nan,
+        crest_level_outer=crest_outer * nan,
+        crest_hole=crest_hole,
+        outer_slope_steepest=out.steepest_cot * nan,
+        inner_slope_steepest=inn.steepest_cot * nan,
+        outer_toe_dry=toe_dry & readable,
+        outer_data_end_level=out.data_end_level,
+        outer_breaks=breaks(out, offsets[hi], +1, x_out, level_hi) * nan[:, None, None],
+        inner_breaks=breaks(inn, offsets[lo], -1, x_in, level_lo) * nan[:, None, None],
     )
     # kept for characteristic_slope on the same profiles (not a field: not an output)
     object.__setattr__(metrics, "_cleaned", _Cleaned(np.array(z, copy=True), step,
                                                       float(object_width), clean))
     return metrics
+
+def breaks_text(breaks: np.ndarray) -> np.ndarray:
+    """Each station's breakline as text: ``offset/level`` pairs from crest edge to toe.
+
+    Offsets in m from the centreline (+ towards the water) to 0.1 m, levels to 0.01 m;
+    empty where unreadable.
+    """
+    out = np.empty(breaks.shape[0], dtype=object)
+    for i, row in enumerate(breaks):
+        ok = np.isfinite(row).all(axis=1)
+        out[i] = " ".join(f"{x:.1f}/{z:.2f}" for x, z in row[ok]) if ok.any() else None
+    return out
 
 
 def flag_text(flags: np.ndarray) -> np.ndarray:

@@ -27,13 +27,13 @@ def outer_characteristic_slope(
 
     EurOtop (2018) Section 5.3.4 average slope (see
     :func:`trajectory.profile.characteristic_slope`), iterated on Ru2% with the
-    section's Tm-1,0 and roughness. Where the outer side ends in water the slope
-    below the waterline is extended with the slope under the berm (or the outer
-    slope). Where no average slope can be formed (no waves, crest below the lower
+    section's Tm-1,0 and roughness. Where the outer toe is not dry ground (the slope
+    runs into water, or the survey ends on it) the slope below the last sample is
+    extended with the lowest measured segment. Where no average slope can be formed (no waves, crest below the lower
     point) the fitted outer slope 1/n is used.
     """
     swl = cond.water_level + cond.sea_level_rise
-    toe_is_ground = ~prof.outer_water & ((prof.flags & FLAGS["outer_truncated"]) == 0)
+    toe_is_ground = prof.outer_toe_dry
     with np.errstate(all="ignore"):
         tan = characteristic_slope(
             z, offsets, crest_level=prof.crest_level, outer_edge=prof.outer_edge, swl=swl,
@@ -46,5 +46,5 @@ def outer_characteristic_slope(
         fallback = 1.0 / prof.outer_slope
     tan = np.where(np.isfinite(tan) & (tan > 0), tan, fallback)
     extra = extrapolated_below(outer_toe_level=prof.outer_toe_level,
-                               outer_water=prof.outer_water, swl=swl, hm0=cond.hm0)
+                               outer_water=~prof.outer_toe_dry, swl=swl, hm0=cond.hm0)
     return tan, extra & np.isfinite(tan)

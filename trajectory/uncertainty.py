@@ -368,7 +368,7 @@ def simulate(ds: Any, stations: Any, side: np.ndarray, offsets: np.ndarray,
         z = np.where((side > 0)[:, None], z, z[:, ::-1])
         prof = read_profiles(z, offsets, object_width=s.object_width,
                              crest_search=s.crest_search, crest_tolerance=s.crest_tolerance,
-                             max_nodata=s.max_nodata)
+                             max_nodata=s.max_nodata, water_level=cond.water_level)
         req = required_level(cond, outer_slope=prof.outer_slope,
                              crest_level=prof.crest_level, approach=s.approach)
         crest[r] = prof.crest_level

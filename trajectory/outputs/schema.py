@@ -25,7 +25,8 @@ STATION_FIELDS: tuple[Field, ...] = (
     _f("chainage", "float", "m", "Chainage of the station along the centreline"),
     _f("section_id", "str", "", "Section of the conditions table the station lies in"),
     _f("crest_level", "float", "m",
-       "Measured crest level (DEM datum), objects on the crest removed"),
+       "Crest level assessed (DEM datum): the mean between the crest edges, or the "
+       "water-side edge level where a cross-fall makes that lower; objects removed"),
     _f("required_level", "float", "m",
        "Required crest level = still water + freeboard + settlement"),
     _f("margin", "float", "m", "crest_level - required_level (negative: too low)"),
@@ -50,7 +51,8 @@ STATION_FIELDS: tuple[Field, ...] = (
     _f("inner_toe_level", "float", "m", "Ground level at the inner toe"),
     _f("outer_fit_rmse", "float", "m", "Root-mean-square residual of the outer slope fit"),
     _f("inner_fit_rmse", "float", "m", "Root-mean-square residual of the inner slope fit"),
-    _f("nodata_fraction", "float", "fraction", "Share of the section's samples without data"),
+    _f("nodata_fraction", "float", "fraction",
+       "Share of samples without data in the levee's body, inner toe to outer toe"),
     _f("noise", "float", "m", "Robust estimate of the profile's noise (std)"),
     _f("gamma_f", "float", "-", "Roughness factor used"),
     _f("gamma_beta", "float", "-", "Oblique-wave factor used (EurOtop 2018, overtopping)"),
@@ -93,7 +95,21 @@ STATION_FIELDS: tuple[Field, ...] = (
     _f("inner_berm_width", "float", "m", "Width of the inner berm between the slope lines"),
     _f("inner_berm_slope", "float", "m/m", "Gradient of the inner berm (+ falling landward)"),
     _f("outer_lower_slope", "float", "n of 1:n",
-       "Outer slope below the berm (= outer_slope if none)"),
+       "Lowest segment of the outer slope (below the berm or the knee; = outer_slope if one "
+       "segment); extends the slope below the last dry sample"),
+    _f("outer_slope_steepest", "float", "n of 1:n",
+       "Steepest straight segment of the outer slope (stability, revetment)"),
+    _f("inner_slope_steepest", "float", "n of 1:n", "Steepest straight segment of the inner slope"),
+    _f("outer_breaks", "str", "m",
+       "Outer side as a breakline: offset/level of each break, crest edge to toe (offset + "
+       "towards the water)"),
+    _f("inner_breaks", "str", "m", "Inner side as a breakline, crest edge to toe"),
+    _f("crest_mean", "float", "m", "Mean measured level between the crest edges"),
+    _f("crest_level_outer", "float", "m",
+       "Level of the crest's water-side edge (cross-fall line where resolved, else the mean)"),
+    _f("crest_hole", "float", "m",
+       "Longest nodata hole on the crest and its shoulders (flag crest_interpolated from "
+       "1.5 m, no_data beyond 5 m)"),
     _f("characteristic_slope", "float", "n of 1:n",
        "EurOtop (2018) average outer slope, SWL - 1.5 Hm0 to Ru2% or crest, berm excluded; "
        "used for the freeboard"),
