@@ -45,6 +45,8 @@ DATA_END_GAP = 6.0
 #: part of each segment left out at its ends in the fits; the top of the upper
 #: segment leaves out at least ROUNDING_TRIM (m), a rounded shoulder
 FIT_TRIM, ROUNDING_TRIM = 0.10, 0.75
+#: the crest edge is on a line over this length (m) of the flank's top
+EDGE_FIT_LENGTH = 2.5
 #: a knee splits a run of slope where two lines beat one by this many noise variances ...
 KNEE_F = 40.0
 #: ... and their gradients differ by this factor at least
@@ -378,7 +380,9 @@ def read_side(s: np.ndarray, meas: np.ndarray, f: np.ndarray, crest: np.ndarray,
     for q, (ra, rb, _first) in enumerate(bounds):
         ok = (ra >= 0) & (rb > ra)
         t = np.rint(FIT_TRIM * (rb - ra)).astype(int)
-        a0 = ra + np.where(q == 0, np.maximum(t, int(round(top_trim / step))), np.maximum(t, half))
+        # the first run leaves out only its rounded top (a 10 % trim of a long composite
+        # slope would cut away its upper segment); the others the gradient window's blur
+        a0 = ra + (np.full(n, int(round(top_trim / step))) if q == 0 else np.maximum(t, half))
         b0 = rb - np.maximum(t, half)
         a0 = np.where(ok & (b0 - a0 >= 2), a0, ra)
         b0 = np.where(ok & (b0 - a0 >= 2), b0, rb)
@@ -395,7 +399,13 @@ def read_side(s: np.ndarray, meas: np.ndarray, f: np.ndarray, crest: np.ndarray,
                             (np.where(split, rgt["a"], np.nan), np.where(split, rgt["b"],
                                                                          np.nan))))
         pieces_b.append(rb)
-    edge_a, edge_b = piece_lines[0][0]
+        if q == 0:
+            # the crest edge lies on the top of the flank: a line over its upper
+            # EDGE_FIT_LENGTH (ending at the knee where one is resolved), so a long gentle
+            # lower part cannot pull the edge inward
+            top_end = np.minimum(np.where(split, c, b0), a0 + int(round(EDGE_FIT_LENGTH / step)))
+            top_fit = sums.fit(a0, np.maximum(top_end, a0 + 2))
+    edge_a, edge_b = top_fit["a"], top_fit["b"]
     edge_a = np.where(np.isfinite(edge_a), edge_a, rep["a"])
     edge_b = np.where(np.isfinite(edge_b), edge_b, rep["b"])
 
