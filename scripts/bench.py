@@ -26,8 +26,8 @@ Wall time and CPU time (user + system, of the process and its workers) are
 both printed: on a shared machine the CPU time is the steadier figure. Peak
 memory is the resident set size high-water mark of the measuring process
 (``resource.getrusage``), and of its largest worker for the pool. The
-scenarios use a 60 m DEM corridor either side of the line (the sections reach
-50 m), which keeps generating the 100 km DEM to a few minutes.
+scenarios use a 70 m DEM corridor either side of the line (the sections reach
+60 m), which keeps generating the 100 km DEM to a few minutes.
 """
 
 from __future__ import annotations
@@ -47,9 +47,9 @@ log = logging.getLogger("bench")
 
 #: sections timed for the naive loop (it is then scaled to the whole line)
 NAIVE_SECTIONS = 60
-#: DEM corridor either side of the line (m); sections reach 50 m, so 60 m covers
+#: DEM corridor either side of the line (m); sections reach 60 m, so 70 m covers
 #: them with room for the bilinear neighbours and keeps generation affordable
-CORRIDOR_M = 60.0
+CORRIDOR_M = 70.0
 
 
 # ------------------------------------------------------------------ scenario

@@ -54,7 +54,7 @@ class Settings:
     start_chainage: float = _p(0.0, "Chainage of the first point of the centreline.",
                                unit="m", min=-1e9, max=1e9)
     reverse: bool = _p(False, "Run chainage against the digitised direction of the line.")
-    half_width: float = _p(50.0, "Length of each cross-section on either side of the centreline.",
+    half_width: float = _p(60.0, "Length of each cross-section on either side of the centreline.",
                            unit="m", min=0.0, min_exclusive=True, max=2000.0)
     sample_step: float = _p(0.0, "Spacing of samples along a cross-section; 0 = the DEM cell size.",
                             unit="m", min=0.0, max=50.0)
