@@ -5,7 +5,7 @@ ROOT="$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)"
 cd "$ROOT"
 bash scripts/setup_env.sh test
 VPY="$ROOT/.venv/bin/python"
-if [ ! -f sample_gis/dem.tif ] || [ ! -f sample_gis/sections.csv ] \
+if [ ! -f sample_gis/dem.tif ] || [ ! -f sample_gis/standards.csv ] \
         || [ ! -f sample_gis/dem_2019.tif ] || [ ! -f sample_gis/dem_2021.tif ]; then
     "$VPY" scripts/make_sample_data.py --out sample_gis
 fi
@@ -14,7 +14,8 @@ mkdir -p results
     --centreline sample_gis/levee.gpkg \
     --dem 2019=sample_gis/dem_2019.tif --dem 2021=sample_gis/dem_2021.tif \
     --dem 2024=sample_gis/dem.tif \
-    --conditions sample_gis/sections.csv --out results/results.gpkg \
+    --conditions sample_gis/standards.csv --frequency sample_gis/frequency.csv \
+    --out results/results.gpkg \
     --report results/report.html --overwrite "$@"
 echo "Results: results/results.gpkg (with layer styles), results/results.csv," \
      "results/results_stretches.csv, results/results.xlsx and results/report.html"

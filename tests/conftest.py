@@ -30,10 +30,16 @@ def demo(tmp_path_factory):
 
 @pytest.fixture(scope="session")
 def demo_result(demo, tmp_path_factory):
-    """The demo assessed once with default settings, written to a GeoPackage."""
+    """The demo assessed once with default settings, written to a GeoPackage.
+
+    Its conditions carry safety standards and frequency lines (``standards.csv``
+    with ``frequency.csv``); the design levels they give equal ``sections.csv``'s.
+    """
     from trajectory.assess import RunInputs, assess
+    from trajectory.params import Settings
 
     out = tmp_path_factory.mktemp("demo_out") / "results.gpkg"
     result = assess(RunInputs(str(demo["centreline"]), str(demo["dem"]),
-                              str(demo["sections"])), out)
+                              str(demo["standards"])), out,
+                    Settings(frequency=str(demo["frequency"])))
     return result, out

@@ -78,8 +78,9 @@ def test_page_parses_and_is_self_contained(report):
     assert html.startswith("<!DOCTYPE html>")
     assert all(r.startswith("data:") or r.startswith("#") for r in page.refs)
     # summary bar, longitudinal, map, cross-sections, margin band, one options figure per
-    # deficit stretch (the demo has two), extra figure; a single survey: no epoch figures
-    assert len(page.images) == 4 + 1 + _option_figures(out) + 1
+    # deficit stretch (the demo has two), return period held, extra figure; a single
+    # survey: no epoch figures
+    assert len(page.images) == 4 + 1 + _option_figures(out) + 1 + 1
     for img in page.images:
         head, data = img["src"].split(",", 1)
         assert head == "data:image/png;base64"
@@ -161,7 +162,8 @@ def test_stage_sections_follow_the_core_ones_in_order(report):
     # the demo is a single survey: no "Change between surveys"
     assert heads == ["Summary", "Along the levee", "Overview map",
                      "Cross-sections of the worst stations", "How sure is each verdict",
-                     "Reinforcement options", "Extra figure", "Extra table", "Run metadata"]
+                     "Reinforcement options", "Return period held against the standard",
+                     "Extra figure", "Extra table", "Run metadata"]
 
 
 def test_stage_builders_leave_out_what_the_file_lacks(demo_result):
@@ -187,3 +189,23 @@ def test_stage_builders_leave_out_what_the_file_lacks(demo_result):
     # the page still renders without the later stages' layers
     html = rep.render_html(replace(data, layers={}))
     assert "Reinforcement options" not in html and "How sure is each verdict" in html
+
+
+def test_standards_section_plots_held_return_periods_and_tables_the_stretches(demo_result):
+    """Held return period (log scale) vs the standard; stretches below it marked; optimum."""
+    from dataclasses import replace
+
+    from trajectory.outputs import report as rep
+    from trajectory.outputs.report_standards import held_figure, standards_section
+
+    _, out = demo_result
+    data = rep.load_report_data(out)
+    title, frag = standards_section(data)
+    assert title == "Return period held against the standard"
+    fig = held_figure(data.stations, data.stretches)
+    assert fig.axes[0].get_yscale() == "log"
+    below = int((data.stretches["below_standard"] == 1).sum())
+    assert below >= 1 and frag.count('<tr style="font-weight:bold">') == below
+    assert "van Dantzig 1956" in frag and "not a standard" in frag
+    no_lines = data.stations.assign(return_period_held=float("nan"))
+    assert standards_section(replace(data, stations=no_lines)) is None

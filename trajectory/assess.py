@@ -28,7 +28,7 @@ from .chainage import Stations, crossing_sections, make_stations
 from .checks import check_chunk_memory, sections_off_the_line
 from .demread import DemReading, reading_rules, with_rules
 from .epoch_sources import crest_from_result, open_earlier_dem
-from .epochs import Epoch, EpochLevels, assess_epochs, check_order
+from .epochs import Epoch, EpochLevels, assess_epochs, check_order, projected_year
 from .errors import InputError, ParameterError
 from .execution import (
     EXECUTION_FIELDS,
@@ -37,6 +37,7 @@ from .execution import (
     run_time,
     side_by_side,
 )
+from .economics import section_economics
 from .faults import (
     FLAG_OFF_DEM,
     FLAG_READ_FAILED,
@@ -52,6 +53,9 @@ from .faults import (
     part_size,
     report_off_dem,
 )
+from .frequency import Lines, no_lines
+from .frequency_table import read_frequency
+from .held import HELD_COLUMNS, empty_held, station_held
 from .lines import Centreline, read_centrelines, read_line_conditions, stack_stretches
 from .params import Settings
 from .profile import FLAGS, ProfileMetrics, breaks_text, flag_text, read_profiles
@@ -112,6 +116,7 @@ class Result:
     epochs: EpochLevels | None = None  # crest level per survey epoch (oldest first)
     options: pd.DataFrame | None = None  # remedies per deficit stretch (remedies.py)
     lines: dict[str, LineString] = field(default_factory=dict)  # line id -> line
+    economics: pd.DataFrame | None = None  # van Dantzig optimum per section (economics.py)
 
 
 # ---------------------------------------------------------------- chunks
@@ -124,6 +129,7 @@ class _Chunk:
     offsets: np.ndarray
     settings: Settings
     dem_reading: DemReading | None = None
+    lines: Lines | None = None         # frequency line per station (frequency.py)
 
 
 _OPEN = threading.local()
@@ -189,6 +195,14 @@ def _assess_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
         prof, chunk.conditions, margin=margin, accuracy=acc, cell=abs(ds.res[0]),
         step=float(chunk.offsets[1] - chunk.offsets[0]), crest_tolerance=s.crest_tolerance,
         approach=s.approach, watch_band=s.watch_band, **profile_berm(prof)).columns())
+    # the return period the crest holds, on the section's frequency line (held.py)
+    if chunk.lines is not None and chunk.lines.has_line.any():
+        out.update(station_held(chunk.lines, chunk.conditions, crest_level=prof.crest_level,
+                                crest_sigma=out["margin_sigma"], approach=s.approach,
+                                outer_slope=prof.outer_slope, tan_alpha=tan_c,
+                                **profile_berm(prof)))
+    else:
+        out.update(empty_held(margin.size))
     out.update(simulate(ds, chunk.stations, chunk.side, chunk.offsets, chunk.conditions, s,
                         accuracy=acc, chunk_key=int(chunk.stations.along[0] * 1000)))
     out["profiles"] = z.astype(np.float32)
@@ -199,7 +213,8 @@ def _one_station(chunk: _Chunk, i: int) -> _Chunk:
     """The chunk of station ``i`` alone (to narrow down a read failure)."""
     sl = slice(i, i + 1)
     return dataclasses.replace(chunk, stations=chunk.stations.take(sl), side=chunk.side[sl],
-                               conditions=chunk.conditions.take(sl))
+                               conditions=chunk.conditions.take(sl),
+                               lines=None if chunk.lines is None else chunk.lines.take(sl))
 
 
 def _chunks(n: int, size: int) -> list[slice]:
@@ -265,12 +280,16 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     all_lines = lines[0].line if len(lines) == 1 else MultiLineString([c.line for c in lines])
     # how DEM values become levels (fill values, vertical unit), from a window near the line
     reading = reading_rules(dem.path, all_lines, margin=s.half_width, z_scale=s.dem_z_scale)
-    # read and validate the section conditions (per line with a line_id column)
+    # frequency lines by section (optional), then the section conditions (per line with a
+    # line_id column), the design level read off a line at the standard where it is empty
+    freq = read_frequency(s.frequency) if s.frequency else None
     if inputs.line_id_field:
-        conds = read_line_conditions(inputs.conditions, [c.line_id for c in lines])
+        conds = read_line_conditions(inputs.conditions, [c.line_id for c in lines],
+                                     frequency=freq, extrapolate=s.extrapolate_frequency)
     else:
         conds = {"": read_conditions(inputs.conditions, layer=inputs.conditions_layer,
-                                     target_crs=dem.crs)}
+                                     target_crs=dem.crs, frequency=freq,
+                                     extrapolate=s.extrapolate_frequency)}
     step = s.sample_step or dem.cell
     offsets = section_offsets(s.half_width, step)
     accuracy_from_settings(s)  # refuse a contradictory accuracy setting before any work
@@ -314,8 +333,9 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
     # sample and interpret the cross-sections chunk by chunk
     slices = _chunks(len(st), s.chunk_size)
     gathered = _gather_conditions(cond, sec, st.chainage)
-    tasks = [_Chunk(dem.path, st.take(sl), side[sl], gathered.take(sl), offsets, s, reading)
-             for sl in slices]
+    lines = cond.lines.take(sec) if cond.lines is not None else no_lines(len(st))
+    tasks = [_Chunk(dem.path, st.take(sl), side[sl], gathered.take(sl), offsets, s, reading,
+                    lines.take(sl)) for sl in slices]
     got: list[dict[str, np.ndarray] | ChunkFailure] = []
     done = 0
     for part in _map(Guarded(_assess_chunk, _one_station), tasks, s):
@@ -356,6 +376,9 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
                            fill_settlement=cond.table["fill_settlement"].to_numpy(float)[sec],
                            unit_cost=s.fill_unit_cost, approach=s.approach)
     options.insert(0, "line_id", pl.line_id)
+    # the economic optimum (van Dantzig 1956) of sections that give damage and discount rate
+    economics = section_economics(table, cond.table, extents=hi - lo, unit_cost=s.fill_unit_cost,
+                                  line_id=pl.line_id)
     meta = _metadata(inputs, s, dem, crs, line)
     if failures:
         meta["incomplete"] = incomplete_text(failures)
@@ -367,10 +390,15 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
                        vertical_accuracy=_survey_sigma(table, s), rate_z=s.rate_z)
     for k, v in ep.columns().items():
         table[k] = v
+    # the year the held return period falls below the standard, at the lowering rate
+    table["below_standard_year"] = projected_year(
+        table["crest_level"].to_numpy(float) - table["standard_level"].to_numpy(float),
+        table["lowering_rate"].to_numpy(float), table["rate_significant"].to_numpy(bool),
+        year_now=float(levels.years[-1]) if len(levels.years) >= 2 else np.nan)
     meta.update(_epoch_metadata(levels, inputs))
     res = Result(stations=table, stretches=stretches, line=line, crs=crs, offsets=offsets,
                  profiles=profiles, metadata=meta, epochs=levels, options=options,
-                 lines={pl.line_id: line})
+                 lines={pl.line_id: line}, economics=economics)
     return _LineRun(pl.line_id, line, res, len(st))
 
 
@@ -396,7 +424,8 @@ def _combine(runs: list[_LineRun], ids: list[str]) -> Result:
         line=MultiLineString([r.line for r in runs]), crs=rs[0].crs, offsets=rs[0].offsets,
         profiles=np.vstack([r.profiles for r in rs]), metadata=meta, epochs=levels,
         options=pd.concat([r.options for r in rs], ignore_index=True),
-        lines={r.line_id: r.line for r in runs})
+        lines={r.line_id: r.line for r in runs},
+        economics=pd.concat([r.economics for r in rs], ignore_index=True))
 
 
 def _survey_sigma(table: pd.DataFrame, s: Settings) -> np.ndarray:
@@ -512,6 +541,11 @@ def _station_table(st: Stations, side: np.ndarray, cond: Conditions, sec: np.nda
     for name in STATION_COLUMNS:  # every further term of the requirement, for audit
         df[name] = cols[name]
     for k in uncertainty.STATION_COLUMNS:  # uncertainty.py
+        df[k] = cols[k]
+    # frequency line and standard: where the design level came from, what the crest holds
+    for k, empty in (("water_level_source", "given"), ("standard_return_period", np.nan)):
+        df[k] = t[k].to_numpy()[sec] if k in t.columns else np.full(len(df), empty)
+    for k in HELD_COLUMNS:  # held.py
         df[k] = cols[k]
     for name in ("outer_berm_level", "outer_berm_width", "outer_berm_slope", "inner_berm_level",
                  "inner_berm_width", "inner_berm_slope", "outer_lower_slope",

@@ -25,6 +25,9 @@ from pyproj import CRS
 from . import hydraulics as hy
 from .checks import condition_plausibility
 from .errors import ConditionsError, InputError, InputFileError
+from .frequency import Lines
+from .frequency_conditions import LINE_COLUMNS, LINE_RULES, design_from_lines, section_lines
+from .frequency_table import FrequencyTable
 from .requirement import METHODS, WAVE_METHODS
 
 log = logging.getLogger(__name__)
@@ -34,7 +37,8 @@ CONDITION_COLUMNS: dict[str, tuple[str, str]] = {
     "section_id": ("", "text, unique"),
     "from_chainage": ("m", "number (not needed for section polygons)"),
     "to_chainage": ("m", "number > from_chainage (not needed for section polygons)"),
-    "water_level": ("m (DEM datum)", "number; design water level (at from_chainage)"),
+    "water_level": ("m (DEM datum)", "number; design water level (at from_chainage); may be "
+                                     "empty where a frequency line and a standard give it"),
     "sea_level_rise": ("m", "0 <= number <= 10"),
     "settlement": ("m", "0 <= number <= 10"),
 }
@@ -58,6 +62,7 @@ OPTIONAL_COLUMNS: dict[str, tuple[str, str]] = {
     "upstream_share_end": ("-", "0 <= number <= 1; the share at to_chainage"),
     "fill_settlement": ("m", "0 <= number <= 10; settlement allowance of new fill for the "
                              "reinforcement options (empty: 0)"),
+    **LINE_COLUMNS,
 }
 _NUMERIC_RULES: dict[str, tuple[float | None, float | None, bool]] = {
     # column: (min, max, min exclusive)
@@ -77,6 +82,7 @@ _NUMERIC_RULES: dict[str, tuple[float | None, float | None, bool]] = {
     "upstream_share": (0.0, 1.0, False),
     "upstream_share_end": (0.0, 1.0, False),
     "fill_settlement": (0.0, 10.0, False),
+    **LINE_RULES,
 }
 _DEFAULTS = {"wave_angle": 0.0, "min_freeboard": 0.0, "upstream_share": 0.0,
              "fill_settlement": 0.0}
@@ -97,6 +103,7 @@ class Conditions:
     table: pd.DataFrame  # sorted by from_chainage (tables), index 0..n-1
     polygons: np.ndarray | None = None
     source: str = ""
+    lines: Lines | None = None  # frequency line and standard per row (frequency.py)
 
     def lookup(self, chainage: np.ndarray) -> np.ndarray:
         """Row index of the section covering each chainage; -1 where none does."""
@@ -110,7 +117,8 @@ class Conditions:
 
 # ------------------------------------------------------------------ reading
 def read_conditions(path: str | Path, *, layer: str | None = None,
-                    target_crs: CRS | None = None) -> Conditions:
+                    target_crs: CRS | None = None, frequency: FrequencyTable | None = None,
+                    extrapolate: bool = False) -> Conditions:
     """Read and validate the section conditions; report every bad row at once.
 
     Parameters
@@ -122,6 +130,9 @@ def read_conditions(path: str | Path, *, layer: str | None = None,
         Layer of a vector file; needed when it has several.
     target_crs : pyproj.CRS, optional
         Working CRS the section polygons are reprojected to.
+    frequency : FrequencyTable, optional
+        Frequency lines by section (``--frequency``); ``extrapolate`` allows one
+        decade beyond them, flagged.
     """
     p = Path(path)
     if not p.exists():
@@ -137,14 +148,16 @@ def read_conditions(path: str | Path, *, layer: str | None = None,
         raw, polygons = _read_vector(p, layer, target_crs)
         row_base = 1  # feature number, first is 1
     raw.columns = [str(c).strip().lower() for c in raw.columns]
-    table, findings = validate_conditions(raw, spatial=polygons is not None, row_base=row_base)
+    table, findings = validate_conditions(raw, spatial=polygons is not None, row_base=row_base,
+                                          frequency=frequency, extrapolate=extrapolate)
     if polygons is not None and not findings:
         findings += _polygon_findings(polygons, table["section_id"].to_numpy(object), row_base)
     if findings:
         raise ConditionsError(str(p), findings)
     if polygons is not None:
         polygons = polygons[table["_row"].to_numpy(int) - row_base]
-    return Conditions(table=table, polygons=polygons, source=str(p))
+    return Conditions(table=table, polygons=polygons, source=str(p),
+                      lines=section_lines(table, frequency, extrapolate=extrapolate))
 
 
 def _read_vector(p: Path, layer: str | None,
@@ -188,8 +201,9 @@ def _as_text(df: pd.DataFrame) -> pd.DataFrame:
 
 
 # --------------------------------------------------------------- validation
-def validate_conditions(raw: pd.DataFrame, *, spatial: bool = False,
-                        row_base: int = 2) -> tuple[pd.DataFrame, list[str]]:
+def validate_conditions(raw: pd.DataFrame, *, spatial: bool = False, row_base: int = 2,
+                        frequency: FrequencyTable | None = None,
+                        extrapolate: bool = False) -> tuple[pd.DataFrame, list[str]]:
     """Check a conditions table; return the clean table and every finding.
 
     Parameters
@@ -201,6 +215,9 @@ def validate_conditions(raw: pd.DataFrame, *, spatial: bool = False,
         overlaps are checked on the polygons.
     row_base : int
         Number of the first row in messages (2 for a CSV with a header line).
+    frequency, extrapolate
+        Frequency lines by section and whether one decade of extrapolation is
+        allowed (:func:`trajectory.frequency_conditions.design_from_lines`).
     """
     findings: list[str] = []
     needed = [c for c in CONDITION_COLUMNS
@@ -234,7 +251,9 @@ def validate_conditions(raw: pd.DataFrame, *, spatial: bool = False,
         blank = (cells == "").to_numpy()
         for i in np.flatnonzero(np.isnan(vals) & ~blank):
             findings.append(f"{row(i)}, column {col}: {cells.iloc[i]!r} is not a number")
-        if col in needed:
+        if col == "water_level":
+            level_blank = blank  # may come from a frequency line (checked below)
+        elif col in needed:
             for i in np.flatnonzero(blank):
                 findings.append(f"{row(i)}, column {col}: empty (a number is required)")
         with np.errstate(invalid="ignore"):
@@ -249,6 +268,9 @@ def validate_conditions(raw: pd.DataFrame, *, spatial: bool = False,
         out[col] = vals
     for col, value in _DEFAULTS.items():
         out[col] = out[col].fillna(value)
+    # frequency lines and standards; the design level read off the line where it is empty
+    findings += design_from_lines(out, level_blank, frequency, row_base=row_base,
+                                  extrapolate=extrapolate)
 
     method = text("freeboard_method").str.lower().replace("", "overtopping")
     for i in np.flatnonzero(~method.isin(METHODS).to_numpy()):
@@ -296,7 +318,7 @@ def validate_conditions(raw: pd.DataFrame, *, spatial: bool = False,
     findings += [f"{row(r)}, {needs[k][1](r)}" for r, k in missing_terms]
     tp = out["tp"].to_numpy(float)
     from_tp = np.isfinite(tp) & ~np.isfinite(out["tm10"].to_numpy(float))
-    out["period_from_tp"] = from_tp
+    out["period_from_tp"] = from_tp | out["table_period_from_tp"].to_numpy(bool)
     from_tp = from_tp & (np.nan_to_num(tp) > 0)  # bad periods are already findings
     if from_tp.any():
         out.loc[from_tp, "tm10"] = np.asarray(hy.tm10_from_tp(out.loc[from_tp, "tp"].to_numpy()))

@@ -21,6 +21,8 @@ from shapely.geometry import LineString
 from shapely.ops import transform
 
 from .errors import ConditionsError, InputError, InputFileError
+from .frequency_conditions import section_lines
+from .frequency_table import FrequencyTable
 from .sources import Conditions, _join_lines, _pick_line_layer, read_conditions, validate_conditions
 from .status import Stretches
 
@@ -88,7 +90,9 @@ def read_centrelines(
     return out, crs
 
 
-def read_line_conditions(path: str | Path, line_ids: list[str]) -> dict[str, Conditions]:
+def read_line_conditions(path: str | Path, line_ids: list[str], *,
+                         frequency: FrequencyTable | None = None,
+                         extrapolate: bool = False) -> dict[str, Conditions]:
     """Section conditions per line.
 
     With a ``line_id`` column, each line gets its own rows, validated on their own
@@ -105,7 +109,7 @@ def read_line_conditions(path: str | Path, line_ids: list[str]) -> dict[str, Con
         raise InputError(f"{p}: cannot read the conditions table ({exc})") from exc
     raw.columns = [str(c).strip().lower() for c in raw.columns]
     if LINE_ID_COLUMN not in raw.columns:
-        cond = read_conditions(p)
+        cond = read_conditions(p, frequency=frequency, extrapolate=extrapolate)
         return {lid: cond for lid in line_ids}
     lid_col = raw[LINE_ID_COLUMN].fillna("").str.strip()
     findings: list[str] = []
@@ -122,10 +126,11 @@ def read_line_conditions(path: str | Path, line_ids: list[str]) -> dict[str, Con
             findings.append(f"no rows for line {lid!r}")
             continue
         part = raw.iloc[pos].drop(columns=[LINE_ID_COLUMN]).reset_index(drop=True)
-        table, found = validate_conditions(part)
+        table, found = validate_conditions(part, frequency=frequency, extrapolate=extrapolate)
         findings += [_file_rows(f, pos, lid) for f in found]
         if not found:
-            out[lid] = Conditions(table=table)
+            out[lid] = Conditions(table=table, lines=section_lines(
+                table, frequency, extrapolate=extrapolate))
     if findings:
         raise ConditionsError(str(p), findings)
     return out

@@ -87,6 +87,12 @@ class Settings:
                        "for the TAW (2002) formulas.",
                        choices=("design", "mean", "taw2002_design", "taw2002_mean"),
                        group="requirement")
+    frequency: str = _p("", "Frequency table (CSV or GeoPackage table): section_id, "
+                        "return_period, water_level, optionally hm0 and tm10 or tp; read "
+                        "linearly in log(return period).", group="requirement")
+    extrapolate_frequency: bool = _p(False, "Allow one decade of log-linear extrapolation "
+                                     "beyond a frequency table (flagged); otherwise refused.",
+                                     group="requirement")
     watch_band: float = _p(0.10, "Margins from 0 up to this value are 'watch' rather than 'ok'.",
                            unit="m", min=0.0, max=5.0, group="requirement")
     # --- several surveys (epochs)

@@ -140,6 +140,48 @@ _DEFAULT_SECTIONS: tuple[DemoSection, ...] = (
 
 
 @dataclass(frozen=True)
+class DemoLine:
+    """The invented frequency line, standard and economics of one demo section.
+
+    ``kind`` is ``table`` (rows in ``frequency.csv``: return period, level,
+    optionally Hm0 and Tm-1,0), ``decimation`` or ``gumbel``. Each line passes
+    through the section's design water level at its standard, so the design
+    read off the line equals the one given in ``sections.csv``.
+    """
+
+    kind: str
+    standard: float                    # return period, years
+    table: tuple[tuple[float, ...], ...] = ()  # (T, level[, hm0, tm10]) rows
+    decimation_height: float = 0.0
+    gumbel_scale: float = 0.0
+    level_given: bool = False          # keep water_level in the standards file
+    standard_as_probability: bool = False
+    flood_damage: float = float("nan")
+    discount_rate: float = float("nan")
+    raise_fixed_cost: float = float("nan")
+
+
+#: demo lines by section id (repeated sections use the line of their base id)
+DEMO_LINES: dict[str, DemoLine] = {
+    "VN-01": DemoLine("table", 1000.0, table=(
+        (10.0, 3.60, 0.45, 2.6), (100.0, 3.90, 0.52, 2.8), (1000.0, 4.20, 0.60, 3.0),
+        (10000.0, 4.50, 0.68, 3.2)), flood_damage=4.0e8, discount_rate=0.02,
+        raise_fixed_cost=1.5e7),
+    "VN-02": DemoLine("table", 1000.0, table=(
+        (10.0, 3.75), (100.0, 4.02), (1000.0, 4.30), (10000.0, 4.58)),
+        standard_as_probability=True),
+    "VN-03": DemoLine("decimation", 1000.0, decimation_height=0.28, flood_damage=2.5e8,
+                      discount_rate=0.02, raise_fixed_cost=1.5e7),
+    "VN-04": DemoLine("gumbel", 300.0, gumbel_scale=0.22, level_given=True),
+}
+
+
+def demo_line(section_id: str) -> DemoLine | None:
+    """The demo line of a section (by its base id, e.g. VN-01 for VN-01-003)."""
+    return DEMO_LINES.get("-".join(section_id.split("-")[:2]))
+
+
+@dataclass(frozen=True)
 class LeveeSpec:
     """Design numbers and planted features of the invented levee.
 
@@ -873,6 +915,70 @@ def write_sections_csv(path: str | Path, spec: LeveeSpec) -> Path:
     return path
 
 
+#: columns of the demo's conditions with standards (``standards.csv``)
+STANDARD_COLUMNS: tuple[str, ...] = (
+    *SECTION_COLUMNS, "standard_return_period", "standard_probability", "level_ref",
+    "return_period_ref", "decimation_height", "gumbel_location", "gumbel_scale",
+    "flood_damage", "discount_rate", "raise_fixed_cost",
+)
+
+
+def _num(v: float) -> str:
+    return "" if v != v else f"{v:.10g}"
+
+
+def write_standards_csv(path: str | Path, spec: LeveeSpec) -> Path:
+    """Write the conditions with a safety standard and a frequency line per section.
+
+    The design water level is left empty where it is read off the line at the
+    standard (table, decimation); the line passes through the level of
+    ``sections.csv`` there.
+    """
+    path = Path(path)
+    rows = [",".join(STANDARD_COLUMNS)]
+    for sec in spec.sections:
+        vals: dict[str, Any] = asdict(sec)
+        ln = demo_line(sec.section_id)
+        extra = dict.fromkeys(STANDARD_COLUMNS[len(SECTION_COLUMNS):], float("nan"))
+        if ln is not None:
+            key = "standard_probability" if ln.standard_as_probability else \
+                "standard_return_period"
+            extra[key] = 1.0 / ln.standard if ln.standard_as_probability else ln.standard
+            if ln.kind == "decimation":
+                extra.update(level_ref=sec.water_level, return_period_ref=ln.standard,
+                             decimation_height=ln.decimation_height)
+            elif ln.kind == "gumbel":  # mu so that the line meets the level at the standard
+                y = -math.log(-math.log1p(-1.0 / ln.standard))
+                extra.update(gumbel_location=round(sec.water_level - ln.gumbel_scale * y, 6),
+                             gumbel_scale=ln.gumbel_scale)
+            extra.update(flood_damage=ln.flood_damage, discount_rate=ln.discount_rate,
+                         raise_fixed_cost=ln.raise_fixed_cost)
+            if not ln.level_given:
+                vals["water_level"] = float("nan")
+                if ln.kind == "table" and len(ln.table[0]) > 2:  # waves from the table
+                    vals["hm0"] = vals["tm10"] = float("nan")
+        vals.update(extra)
+        rows.append(",".join(vals[c] if c == "section_id" else _num(float(vals[c]))
+                             for c in STANDARD_COLUMNS))
+    path.write_text("\n".join(rows) + "\n", encoding="utf-8")
+    return path
+
+
+def write_frequency_csv(path: str | Path, spec: LeveeSpec) -> Path:
+    """Write the frequency table of the demo sections whose line is a table."""
+    path = Path(path)
+    rows = ["section_id,return_period,water_level,hm0,tm10"]
+    for sec in spec.sections:
+        ln = demo_line(sec.section_id)
+        if ln is None or ln.kind != "table":
+            continue
+        for r in ln.table:
+            waves = [_num(v) for v in r[2:]] + [""] * (4 - len(r))
+            rows.append(",".join([sec.section_id, _num(r[0]), _num(r[1]), *waves]))
+    path.write_text("\n".join(rows) + "\n", encoding="utf-8")
+    return path
+
+
 def write_centreline(path: str | Path, centreline: LineString, *, crs: str = CRS,
                      line_id: str = LINE_ID, name: str = LINE_NAME) -> Path:
     """Write the centreline as a one-feature GeoPackage layer ``centreline``."""
@@ -961,7 +1067,8 @@ def write_scenario(out_dir: str | Path, *, spec: LeveeSpec | None = None,
 
     Files: ``levee.gpkg`` (layer ``centreline``), ``dem.tif`` (or with
     ``tile_size_m`` a folder ``dem/`` of tiles with ``dem.vrt``),
-    ``sections.csv``, ``truth.json`` and, with ``epochs``, ``dem_<year>.tif``
+    ``sections.csv``, ``standards.csv`` with ``frequency.csv`` (the same
+    conditions with safety standards and frequency lines), ``truth.json`` and, with ``epochs``, ``dem_<year>.tif``
     for each of ``spec.epochs``.
     """
     spec = spec or LeveeSpec()
@@ -969,7 +1076,7 @@ def write_scenario(out_dir: str | Path, *, spec: LeveeSpec | None = None,
     spec = _spec_for(line, spec)
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
-    names = ["levee.gpkg", "sections.csv", "truth.json",
+    names = ["levee.gpkg", "sections.csv", "standards.csv", "frequency.csv", "truth.json",
              "dem.tif" if tile_size_m is None else "dem"]
     if epochs:
         names += [f"dem_{y}.tif" if tile_size_m is None else f"dem_{y}" for y in spec.epochs]
@@ -993,6 +1100,8 @@ def write_scenario(out_dir: str | Path, *, spec: LeveeSpec | None = None,
     for y in spec.epochs if epochs else ():
         paths[f"dem_{y}"] = dems[y]
     paths["sections"] = write_sections_csv(out / "sections.csv", spec)
+    paths["standards"] = write_standards_csv(out / "standards.csv", spec)
+    paths["frequency"] = write_frequency_csv(out / "frequency.csv", spec)
     truth = truth_record(spec, line, epochs=epochs)
     if epochs:
         truth["epochs"]["files"] = {str(spec.survey_year): paths["dem"].relative_to(out).as_posix()}

@@ -13,6 +13,7 @@ import pyogrio
 import shapely
 
 from ..chainage import line_substrings
+from ..held import stretch_held
 from ..uncertainty import stretch_uncertainty
 from .atomic import atomic_path, refuse_overwrite
 from .describe import write_data_columns
@@ -100,7 +101,38 @@ def _stretch_data(result) -> dict[str, np.ndarray]:
             "absorbed": _absorbed(result.stations["status"].to_numpy(object), s)}
     data.update(epoch_stretch_columns(result))
     data.update(stretch_uncertainty(s, result.stations))  # uncertainty.py
+    data.update(held_stretch_columns(result))  # held.py, economics.py
     return data
+
+
+def held_stretch_columns(result) -> dict[str, np.ndarray]:
+    """Smallest held return period per stretch, the standard and the economic optimum there."""
+    t, s = result.stations, result.stretches
+    nan = np.full(len(t), np.nan)
+    out, idx = stretch_held(s.first, s.last, t["chainage"].to_numpy(float),
+                            t["return_period_held"].to_numpy(float)
+                            if "return_period_held" in t else nan,
+                            t["held_range"].to_numpy(object) if "held_range" in t
+                            else np.full(len(t), "", object),
+                            t["standard_return_period"].to_numpy(float)
+                            if "standard_return_period" in t else nan)
+    econ = economics_frame(result)
+    opt = dict(zip(zip(econ["line_id"], econ["section_id"], strict=True),
+                   econ["optimal_return_period"], strict=True))
+    ids, sid = _line_ids(result), t["section_id"].to_numpy(object)
+    out["economic_return_period"] = np.array(
+        [opt.get((ids[i], sid[i]), np.nan) if i >= 0 else np.nan for i in idx], dtype=float)
+    return out
+
+
+def economics_frame(result) -> pd.DataFrame:
+    """The economics table (van Dantzig 1956 per section), empty without one."""
+    e = result.economics
+    cols = field_names("economics")
+    if e is None or e.empty:
+        return pd.DataFrame({c: pd.Series([], dtype=object if c in ("line_id", "section_id")
+                                          else float) for c in cols})
+    return e[cols].reset_index(drop=True)
 
 
 def _absorbed(station_status: np.ndarray, s) -> np.ndarray:
@@ -178,6 +210,7 @@ def write_geopackage(result, path: str | Path, *, overwrite: bool = False,
         "run_metadata": metadata_table(result),
         "epochs": epoch_layer(result),
         "section_profiles": section_profile_table(result),
+        "economics": economics_frame(result),
     }
     assert set(layers) == set(LAYERS)
     slds = sld_paths(path) if styles else {}

@@ -29,7 +29,7 @@ from matplotlib.figure import Figure
 from .. import CAUTION
 from ..errors import InputFileError
 from ..status import STATUSES
-from . import plots, report_epochs, report_remedies, report_uncertainty
+from . import plots, report_epochs, report_remedies, report_standards, report_uncertainty
 from .atomic import atomic_path
 from .fill import stretch_table
 from .plots import figure_html
@@ -65,6 +65,7 @@ SECTION_BUILDERS: tuple[SectionBuilder, ...] = (
     report_uncertainty.uncertainty_section,   # how sure each verdict is
     report_epochs.epoch_section,              # several surveys (None for one)
     report_remedies.remedy_section,           # reinforcement options
+    report_standards.standards_section,       # return period held vs the standard
 )
 
 #: layers read into ReportData's own fields, or not needed by the report

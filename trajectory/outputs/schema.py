@@ -151,6 +151,38 @@ EPOCH_FIELDS: tuple[Field, ...] = (
 )
 STATION_FIELDS = STATION_FIELDS + EPOCH_STATION_FIELDS
 
+# --- frequency lines and safety standards (frequency.py, held.py, economics.py)
+FREQUENCY_STATION_FIELDS: tuple[Field, ...] = (
+    _f("water_level_source", "str", "",
+       "Where the design water level came from: given | table | decimation | gumbel "
+       "(the line read at the standard)"),
+    _f("standard_return_period", "float", "years",
+       "Safety standard of the section as a return period (empty: none)"),
+    _f("return_period_held", "float", "years",
+       "Return period whose water level and waves the crest holds today (requirement without "
+       "the future allowances); the range's bound where held_range is above or below"),
+    _f("held_probability", "float", "per year", "1 / return_period_held"),
+    _f("held_range", "str", "",
+       "within | extrapolated (in the decade beyond the table, on request) | above | below "
+       "the frequency line's range (empty: no line)"),
+    _f("return_period_held_low", "float", "years",
+       "Return period held at crest_level - 2 margin_sigma (survey accuracy)"),
+    _f("held_range_low", "str", "", "held_range of return_period_held_low"),
+    _f("return_period_held_future", "float", "years",
+       "Return period held with the allowances (sea-level rise, settlement) of the end of "
+       "the planning period"),
+    _f("held_range_future", "str", "", "held_range of return_period_held_future"),
+    _f("standard_level", "float", "m",
+       "Crest level that holds the standard today (required level at the standard, without "
+       "the allowances)"),
+    _f("rise_per_decade", "float", "m",
+       "Rise of that required level per factor ten in return period, around the standard"),
+    _f("below_standard_year", "float", "year",
+       "Year the held return period falls below the standard at the significant lowering "
+       "rate; the survey year if already below (empty: not projected)"),
+)
+STATION_FIELDS = STATION_FIELDS + FREQUENCY_STATION_FIELDS
+
 CROSS_SECTION_FIELDS: tuple[Field, ...] = (
     _f("chainage", "float", "m", "Chainage of the station"),
     _f("crest_level", "float", "m", "Measured crest level"),
@@ -187,6 +219,44 @@ STRETCH_FIELDS = STRETCH_FIELDS + EPOCH_STRETCH_FIELDS
 STRETCH_FIELDS = STRETCH_FIELDS + (
     _f("absorbed", "int", "",
        "Stations of a milder status counted in this stretch by the minimum stretch length rule"),
+)
+
+# --- what each stretch holds, against the standard and the economic optimum
+STRETCH_FIELDS = STRETCH_FIELDS + (
+    _f("min_return_period_held", "float", "years",
+       "Smallest return_period_held of the stretch's stations"),
+    _f("min_held_chainage", "float", "m", "Chainage of that station"),
+    _f("min_held_range", "str", "", "held_range of that station"),
+    _f("standard_return_period", "float", "years", "Standard of that station's section"),
+    _f("below_standard", "float", "",
+       "1 where min_return_period_held is below the standard (empty where either is missing)"),
+    _f("economic_return_period", "float", "years",
+       "van Dantzig (1956) economic optimum of that station's section, as a return period"),
+)
+
+#: per section: the classic van Dantzig (1956) single-section optimum (economics.py)
+ECONOMICS_FIELDS: tuple[Field, ...] = (
+    _f("line_id", "str", "", "Line the section belongs to (empty for a single line)"),
+    _f("section_id", "str", "", "Section"),
+    _f("standard_return_period", "float", "years", "Safety standard of the section"),
+    _f("weakest_chainage", "float", "m", "Station holding the smallest return period"),
+    _f("return_period_held", "float", "years", "What that station holds today"),
+    _f("crest_level", "float", "m", "Its crest level"),
+    _f("standard_level", "float", "m", "Its crest level needed for the standard today"),
+    _f("flood_damage", "float", "currency", "V: damage of a flood behind the section"),
+    _f("discount_rate", "float", "per year", "delta: net of economic growth"),
+    _f("alpha", "float", "1/m",
+       "1 / (d required level / d ln T) around the standard (median over the stations)"),
+    _f("marginal_cost", "float", "currency per m",
+       "I': cost of one more metre of raise over the section (fill volume x fill_unit_cost "
+       "+ raise_fixed_cost x km)"),
+    _f("optimal_raise", "float", "m",
+       "X* = ln(alpha V P0 / (delta I')) / alpha, P0 = 1 / return_period_held (0 if negative)"),
+    _f("optimal_level", "float", "m",
+       "crest_level + X*: the crest level of probability P* (below the crest where no raise "
+       "pays)"),
+    _f("optimal_probability", "float", "per year", "P* = delta I' / (alpha V)"),
+    _f("optimal_return_period", "float", "years", "1 / optimal_probability"),
 )
 
 SECTION_PROFILE_FIELDS: tuple[Field, ...] = (
@@ -234,6 +304,7 @@ LAYERS: dict[str, tuple[str | None, tuple[Field, ...]]] = {
     "run_metadata": (None, METADATA_FIELDS),
     "epochs": ("Point", EPOCH_FIELDS),
     "section_profiles": (None, SECTION_PROFILE_FIELDS),
+    "economics": (None, ECONOMICS_FIELDS),
 }
 
 # --- several lines in one run: the spatial layers lead with the line's id

@@ -1,4 +1,5 @@
-"""The deficit table as an XLSX workbook: stations, stretches by severity, options, run metadata.
+"""The deficit table as an XLSX workbook: stations, stretches by severity, options, economics,
+run metadata.
 
 Each data sheet has the caution in its first row, the field names in the
 second, their units in the third and the values from the fourth; panes are
@@ -92,9 +93,11 @@ def _when(metadata: dict) -> datetime | None:
 
 def write_workbook(stations: pd.DataFrame, stretches: pd.DataFrame, metadata: dict,
                    path: str | Path, *, overwrite: bool = False,
-                   options: pd.DataFrame | None = None) -> Path:
+                   options: pd.DataFrame | None = None,
+                   economics: pd.DataFrame | None = None) -> Path:
     """Write ``stations`` (contract fields), the severity-sorted ``stretches``, the
-    ``options`` (options layer's fields; the sheet is left out when None) and metadata."""
+    ``options`` (options layer's fields; the sheet is left out when None), the
+    ``economics`` (van Dantzig per section; left out when None or empty) and metadata."""
     from ..remedies import CAVEAT, COST_NOTE
 
     wb = Workbook()
@@ -107,6 +110,11 @@ def write_workbook(stations: pd.DataFrame, stretches: pd.DataFrame, metadata: di
         _sheet(wb, "options", options, _units("options"),
                f"{CAUTION} Reinforcement options: {CAVEAT} {COST_NOTE}",
                bold_rows=cheapest, mark=("option", CHEAPEST_MARK))
+    if economics is not None and not economics.empty:
+        from ..economics import CAVEAT as ECONOMICS_CAVEAT
+
+        _sheet(wb, "economics", economics, _units("economics"),
+               f"{CAUTION} {ECONOMICS_CAVEAT}")
     meta = pd.DataFrame({"key": list(metadata), "value": [str(v) for v in metadata.values()]})
     _sheet(wb, "run", meta, {}, CAUTION)
     with atomic_path(path, overwrite=overwrite) as tmp:
@@ -117,10 +125,10 @@ def write_workbook(stations: pd.DataFrame, stretches: pd.DataFrame, metadata: di
 def write_result_workbook(result, path: str | Path, *, overwrite: bool = False) -> Path:
     """The workbook of an in-memory result."""
     from .fill import stretch_table
-    from .geopackage import option_frame, stretch_frame
+    from .geopackage import economics_frame, option_frame, stretch_frame
     from .table import deficit_frame
 
     st = deficit_frame(result)
     return write_workbook(st, stretch_table(st, stretch_frame(result)),
                           dict(sorted(result.metadata.items())), path, overwrite=overwrite,
-                          options=option_frame(result))
+                          options=option_frame(result), economics=economics_frame(result))
