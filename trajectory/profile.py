@@ -59,6 +59,10 @@ EDGE_REACH = 2.0
 CREST_GAP_FLAG = 1.5
 #: ... and one longer than this makes the crest no_data
 CREST_GAP_MAX = 5.0
+#: a flat part wider than this (m) on the outer side is the foreland, not a berm: EurOtop
+#: (2018, Section 5.3.4; from memory) counts a berm wider than 0.25 L0 as a foreshore,
+#: and 0.25 L0 is 6-14 m for Tm-1,0 of 4-6 s
+OUTER_BERM_MAX_WIDTH = 15.0
 #: nodata beyond the outer slope is water if its edge is at most this far (m) above the
 #: lowest dry return of the section (or at or below the design water level)
 WATER_EDGE_TOLERANCE = 0.3
@@ -410,7 +414,7 @@ def read_profiles(
     level_hi = ca + cb * offsets[hi]
     level_lo = ca + cb * offsets[lo]
     out = sides.read_side(out_walk.s, meas_out, out_walk.near, level_hi, step, noise,
-                          water_below=water_below)
+                          water_below=water_below, max_berm_width=OUTER_BERM_MAX_WIDTH)
     inn = sides.read_side(in_walk.s, meas_in, in_walk.near, level_lo, step, noise)
 
     # the crest edges: where the upper segment of each flank meets the crest's level

@@ -263,7 +263,7 @@ def _meet(line_a: np.ndarray, line_b: np.ndarray, level: np.ndarray, lo: np.ndar
 
 def read_side(s: np.ndarray, meas: np.ndarray, f: np.ndarray, crest: np.ndarray,
               step: float, noise: np.ndarray, *, water_below: np.ndarray | None = None,
-              top_trim: float = ROUNDING_TRIM) -> SideReading:
+              top_trim: float = ROUNDING_TRIM, max_berm_width: float = np.inf) -> SideReading:
     """Read one side of every profile (see the module docstring).
 
     ``s``: levels from the crest end outward (NaN beyond the section); ``meas``: measured
@@ -339,7 +339,8 @@ def read_side(s: np.ndarray, meas: np.ndarray, f: np.ndarray, crest: np.ndarray,
                 rise >= l_next + DITCH_RISE) & (fe[:, q + 1] + 1 < end_j)
             slope_on = ~nxt_ok & (l_q - after_min >= TOE_DROP)
             foreshore = water_end & (end_j - e_q - 1 <= fore)
-            berm = here & ~fend[:, q] & (lower_next & ~ditch | slope_on) & ~foreshore
+            wide = (e_q - a_q + 1) * step > max_berm_width
+            berm = here & ~fend[:, q] & (lower_next & ~ditch | slope_on) & ~foreshore & ~wide
         toe_here = here & ~berm
         toe_run = np.where(toe_here, q, toe_run)
         is_toe |= toe_here
