@@ -193,7 +193,9 @@ def render_html(data: ReportData, *, extra_sections: Sequence[Section] = ()) -> 
     """The report page as one HTML string (pure: nothing is read or written)."""
     st, sr, meta = data.stations, data.stretches, data.metadata
     attrs = pd.DataFrame(sr.drop(columns="geometry"))[field_names("stretches")]
-    table = stretch_table(st, attrs)
+    opt = data.layers.get("options")
+    table = stretch_table(st, attrs, None if opt is None else
+                          pd.DataFrame(opt.drop(columns="geometry", errors="ignore")))
     figs = summary_figures(st, attrs)
     chosen = worst_chainages(attrs, st)
     have = np.isin(chosen, data.profiles["chainage"].to_numpy(float))
