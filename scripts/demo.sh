@@ -6,7 +6,8 @@ cd "$ROOT"
 bash scripts/setup_env.sh test
 VPY="$ROOT/.venv/bin/python"
 if [ ! -f sample_gis/dem.tif ] || [ ! -f sample_gis/sections.csv ] \
-        || [ ! -f sample_gis/dem_2019.tif ] || [ ! -f sample_gis/dem_2021.tif ]; then
+        || [ ! -f sample_gis/dem_2019.tif ] || [ ! -f sample_gis/dem_2021.tif ] \
+        || [ ! -f sample_gis/structures.csv ]; then
     "$VPY" scripts/make_sample_data.py --out sample_gis
 fi
 mkdir -p results
@@ -14,7 +15,8 @@ mkdir -p results
     --centreline sample_gis/levee.gpkg \
     --dem 2019=sample_gis/dem_2019.tif --dem 2021=sample_gis/dem_2021.tif \
     --dem 2024=sample_gis/dem.tif \
-    --conditions sample_gis/sections.csv --out results/results.gpkg \
+    --conditions sample_gis/sections.csv --structures-file sample_gis/structures.csv \
+    --out results/results.gpkg \
     --report results/report.html --overwrite "$@"
 echo "Results: results/results.gpkg (with layer styles), results/results.csv," \
      "results/results_stretches.csv, results/results.xlsx and results/report.html"

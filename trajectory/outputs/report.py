@@ -29,7 +29,7 @@ from matplotlib.figure import Figure
 from .. import CAUTION
 from ..errors import InputFileError
 from ..status import STATUSES
-from . import plots, report_epochs, report_remedies, report_uncertainty
+from . import plots, report_epochs, report_remedies, report_structures, report_uncertainty
 from .atomic import atomic_path
 from .fill import stretch_table
 from .plots import figure_html
@@ -62,6 +62,7 @@ SectionBuilder = Callable[[ReportData], "Section | None"]
 #: builders of sections every report carries, after the core ones; other stages
 #: add theirs here, one line each (e.g. ``report_epochs.epoch_section,``)
 SECTION_BUILDERS: tuple[SectionBuilder, ...] = (
+    report_structures.structure_section,      # known structures and exceptions applied
     report_uncertainty.uncertainty_section,   # how sure each verdict is
     report_epochs.epoch_section,              # several surveys (None for one)
     report_remedies.remedy_section,           # reinforcement options

@@ -29,7 +29,7 @@ STATION_FIELDS: tuple[Field, ...] = (
     _f("required_level", "float", "m",
        "Required crest level = still water + freeboard + settlement"),
     _f("margin", "float", "m", "crest_level - required_level (negative: too low)"),
-    _f("status", "str", "", "ok | watch | deficit | no_data"),
+    _f("status", "str", "", "ok | watch | deficit | no_data | excluded"),
     _f("water_level", "float", "m", "Design water level of the section"),
     _f("sea_level_rise", "float", "m", "Sea-level-rise allowance"),
     _f("settlement", "float", "m", "Settlement allowance (extra construction height)"),
@@ -135,6 +135,17 @@ EPOCH_FIELDS: tuple[Field, ...] = (
 )
 STATION_FIELDS = STATION_FIELDS + EPOCH_STATION_FIELDS
 
+# --- known structures and accepted exceptions (trajectory.structures)
+STATION_FIELDS = STATION_FIELDS + (
+    _f("ground_crest_level", "float", "m",
+       "Crest level read from the DEM (crest_level differs where a structure gives it)"),
+    _f("structure_id", "str", "", "Known structure(s) or exception(s) at the station, ';'-joined"),
+    _f("structure_kind", "str", "", "Their kind(s), ';'-joined"),
+    _f("structure_effect", "str", "",
+       "exclude (status excluded) | crest_level (crest_level is the given level) | note"),
+    _f("structure_note", "str", "", "Their note(s), ';'-joined"),
+)
+
 CROSS_SECTION_FIELDS: tuple[Field, ...] = (
     _f("chainage", "float", "m", "Chainage of the station"),
     _f("crest_level", "float", "m", "Measured crest level"),
@@ -154,7 +165,7 @@ STRETCH_FIELDS: tuple[Field, ...] = (
     _f("from_chainage", "float", "m", "Start of the stretch"),
     _f("to_chainage", "float", "m", "End of the stretch"),
     _f("length", "float", "m", "Length of the stretch"),
-    _f("status", "str", "", "ok | watch | deficit | no_data"),
+    _f("status", "str", "", "ok | watch | deficit | no_data | excluded"),
     _f("worst_margin", "float", "m", "Smallest margin in the stretch"),
     _f("worst_chainage", "float", "m", "Chainage of the smallest margin"),
     _f("stations", "int", "", "Number of stations in the stretch"),
@@ -206,6 +217,19 @@ OPTION_FIELDS: tuple[Field, ...] = (
     _f("cheapest", "int", "", "1 for the least-fill option that closes the gap"),
 )
 
+STRUCTURE_FIELDS: tuple[Field, ...] = (
+    _f("structure_id", "str", "", "Id of the structure or exception (S1, S2, ... if not given)"),
+    _f("line_id", "str", "", "Line it belongs to (empty: every line)"),
+    _f("kind", "str", "",
+       "ramp | gate | culvert | crossing | crest_wall | accepted | scheduled | other"),
+    _f("effect", "str", "", "exclude | crest_level | note"),
+    _f("from_chainage", "float", "m", "Start (as given, or the first station a polygon covers)"),
+    _f("to_chainage", "float", "m", "End (as given, or the last station a polygon covers)"),
+    _f("crest_level", "float", "m", "Level used as the crest (effect crest_level: wall top, sill)"),
+    _f("note", "str", "", "The manager's note"),
+    _f("stations", "int", "", "Number of stations it covers in this run"),
+)
+
 METADATA_FIELDS: tuple[Field, ...] = (
     _f("key", "str", "", "Item of the run's metadata"),
     _f("value", "str", "", "Its value"),
@@ -221,6 +245,7 @@ LAYERS: dict[str, tuple[str | None, tuple[Field, ...]]] = {
     "run_metadata": (None, METADATA_FIELDS),
     "epochs": ("Point", EPOCH_FIELDS),
     "section_profiles": (None, SECTION_PROFILE_FIELDS),
+    "structures": (None, STRUCTURE_FIELDS),
 }
 
 # --- several lines in one run: the spatial layers lead with the line's id
