@@ -6,7 +6,8 @@ cd "$ROOT"
 bash scripts/setup_env.sh test
 VPY="$ROOT/.venv/bin/python"
 if [ ! -f sample_gis/dem.tif ] || [ ! -f sample_gis/standards.csv ] \
-        || [ ! -f sample_gis/dem_2019.tif ] || [ ! -f sample_gis/dem_2021.tif ]; then
+        || [ ! -f sample_gis/dem_2019.tif ] || [ ! -f sample_gis/dem_2021.tif ] \
+        || [ ! -f sample_gis/structures.csv ]; then
     "$VPY" scripts/make_sample_data.py --out sample_gis
 fi
 mkdir -p results
@@ -15,6 +16,7 @@ mkdir -p results
     --dem 2019=sample_gis/dem_2019.tif --dem 2021=sample_gis/dem_2021.tif \
     --dem 2024=sample_gis/dem.tif \
     --conditions sample_gis/standards.csv --frequency sample_gis/frequency.csv \
+    --structures-file sample_gis/structures.csv \
     --out results/results.gpkg \
     --report results/report.html --overwrite "$@"
 echo "Results: results/results.gpkg (with layer styles), results/results.csv," \

@@ -147,7 +147,7 @@ def test_every_demo_deficit_stretch_gets_all_three_options(demo_result):
     assert deficit.size >= 2
     for i in deficit:
         rows = opt[opt["stretch"] == i]
-        for basis in ("worst_station", "every_station"):
+        for basis in ("whole_stretch", "every_station"):
             b = rows[rows["basis"] == basis].set_index("option")
             assert set(b.index) == {"raise", "outer_berm", "combined"}
             closing = b.loc[b["closes_gap"].astype(bool), "fill_volume"]
@@ -210,7 +210,7 @@ def test_profiles_of_every_option_design_station_are_stored():
     stretches = pd.DataFrame({"status": ["deficit"] * n, "worst_margin": -0.1 * np.arange(n),
                               "worst_chainage": worst_ch})
     stations = pd.DataFrame({"chainage": worst_ch, "margin": -0.1 * np.arange(n)})
-    options = pd.DataFrame({"basis": ["worst_station", "every_station"] * n,
+    options = pd.DataFrame({"basis": ["whole_stretch", "every_station"] * n,
                             "chainage": np.repeat(worst_ch, 2)})
     options.loc[options["basis"] == "every_station", "chainage"] = np.nan
     assert stored_chainages(stretches, stations).size == REPORT_PROFILES  # the worst alone
@@ -225,5 +225,5 @@ def test_demo_stores_the_design_station_profiles(demo_result):
     _, out = demo_result
     opt = pyogrio.read_dataframe(out, layer="options")
     prof = pyogrio.read_dataframe(out, layer="section_profiles")
-    design = opt.loc[opt["basis"] == "worst_station", "chainage"].to_numpy(float)
+    design = opt.loc[opt["basis"] == "whole_stretch", "chainage"].to_numpy(float)
     assert design.size and np.isin(design, prof["chainage"].to_numpy(float)).all()

@@ -80,7 +80,14 @@ from .sources import (
     read_conditions,
 )
 from .station_list import read_station_chainages
-from .status import Stretches, classify, merge_stretches, station_extents
+from .status import EXCLUDED, STATUSES, Stretches, classify, merge_stretches, station_extents
+from .structures import (
+    StructureMatch,
+    Structures,
+    match_structures,
+    read_structures,
+    structure_table,
+)
 from .uncertainty import accuracy_from_settings, simulate, simulation_summary, station_uncertainty
 
 log = logging.getLogger(__name__)
@@ -117,6 +124,7 @@ class Result:
     options: pd.DataFrame | None = None  # remedies per deficit stretch (remedies.py)
     lines: dict[str, LineString] = field(default_factory=dict)  # line id -> line
     economics: pd.DataFrame | None = None  # van Dantzig optimum per section (economics.py)
+    structures: pd.DataFrame | None = None  # known structures applied (structures.py)
 
 
 # ---------------------------------------------------------------- chunks
@@ -250,6 +258,7 @@ class _LinePlan:
     stations: Stations
     sec: np.ndarray
     side: np.ndarray
+    structures: Structures | None = None
 
 
 def _read_lines(inputs: RunInputs, dem: DemInfo,
@@ -297,7 +306,10 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     if too_big:
         raise ParameterError(too_big)
     # stations at fixed chainage with smoothed normals, each line its own chainage
-    plans = [_plan_line(c, conds[c.line_id], s, source=inputs.conditions) for c in lines]
+    # known structures and accepted exceptions, applied before the verdict
+    known = read_structures(s.structures_file, target_crs=dem.crs) if s.structures_file else None
+    plans = [dataclasses.replace(_plan_line(c, conds[c.line_id], s, source=inputs.conditions),
+                                 structures=known) for c in lines]
     total = sum(len(pl.stations) for pl in plans)
     log.info("%d stations over %.0f m (%d line(s)), %d samples per section", total,
              sum(pl.line.length for pl in plans), len(plans), offsets.size)
@@ -354,9 +366,21 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
     # sections that cross a neighbour within their half-width (needs all stations)
     cols["flags"] = cols["flags"] | np.where(crossing_sections(st, s.half_width),
                                              FLAGS["sections_cross"], 0)
-    # margin and status per station, then stretches of one status
+    # known structures: a given crest level (a wall's top) replaces the ground's, then
+    # margin and status per station (excluded where a structure says so), then stretches
+    ground_crest = cols["crest_level"].copy()
+    match = (match_structures(pl.structures, st.chainage, st.x, st.y, line_id=pl.line_id)
+             if pl.structures is not None else None)
+    if match is not None:
+        given = np.isfinite(match.crest_level)
+        cols["crest_level"] = np.where(given, match.crest_level, cols["crest_level"])
+        cols["margin"] = np.where(given, cols["crest_level"] - cols["required_level"],
+                                  cols["margin"])
     status = classify(cols["margin"], watch_band=s.watch_band)
+    if match is not None:
+        status[match.effect == "exclude"] = EXCLUDED
     table = _station_table(st, side, cond, sec, cols, status)
+    _structure_columns(table, ground_crest, match)
     table.insert(0, "line_id", pl.line_id)
     table["flags"] = add_flag(table["flags"].to_numpy(), off, FLAG_OFF_DEM)
     failed = np.array([e is not None for e in read_error], dtype=bool)
@@ -385,7 +409,7 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
     if off_note:
         meta["off_dem"] = off_note
     # every epoch read on the same stations and sections: change, rate, projected year
-    levels = _epoch_levels(inputs, tasks, table, crs, cols["crest_level"], s)
+    levels = _epoch_levels(inputs, tasks, table, crs, ground_crest, s)
     ep = assess_epochs(levels.years, levels.crest, cols["margin"],
                        vertical_accuracy=_survey_sigma(table, s), rate_z=s.rate_z)
     for k, v in ep.columns().items():
@@ -396,10 +420,50 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
         table["lowering_rate"].to_numpy(float), table["rate_significant"].to_numpy(bool),
         year_now=float(levels.years[-1]) if len(levels.years) >= 2 else np.nan)
     meta.update(_epoch_metadata(levels, inputs))
+    known = None
+    if pl.structures is not None:
+        known = structure_table(pl.structures, [match])
+        meta.update(_structure_metadata(s.structures_file, known))
     res = Result(stations=table, stretches=stretches, line=line, crs=crs, offsets=offsets,
                  profiles=profiles, metadata=meta, epochs=levels, options=options,
-                 lines={pl.line_id: line}, economics=economics)
+                 lines={pl.line_id: line}, economics=economics, structures=known)
     return _LineRun(pl.line_id, line, res, len(st))
+
+
+def _structure_columns(table: pd.DataFrame, ground_crest: np.ndarray,
+                       match: StructureMatch | None) -> None:
+    """Station fields of the known structures (in place); a flag where the crest is given."""
+    n = len(table)
+    table["ground_crest_level"] = ground_crest
+    empty = np.full(n, "", dtype=object)
+    table["structure_id"] = empty if match is None else match.structure_id
+    table["structure_kind"] = empty if match is None else match.kind
+    table["structure_effect"] = empty if match is None else match.effect
+    table["structure_note"] = empty if match is None else match.note
+    if match is not None:
+        table["flags"] = add_flag(table["flags"].to_numpy(), np.isfinite(match.crest_level),
+                                  "crest_from_structure")
+
+
+def _structure_metadata(path: str, known: pd.DataFrame) -> dict[str, Any]:
+    meta: dict[str, Any] = {"input_structures": Path(path).name,
+                            "structures": f"{len(known)} known structure(s) or exception(s), "
+                                          f"{int(known['stations'].sum())} station(s) covered"}
+    if Path(path).is_file():
+        meta["sha256_structures"] = file_checksum(path)
+    return meta
+
+
+def _combine_structures(tables: list[pd.DataFrame | None]) -> pd.DataFrame | None:
+    """One structures table for several lines: stations summed, chainage range widened."""
+    got = [t for t in tables if t is not None]
+    if not got:
+        return None
+    t = got[0].copy()
+    t["stations"] = np.sum([g["stations"].to_numpy() for g in got], axis=0)
+    t["from_chainage"] = np.fmin.reduce([g["from_chainage"].to_numpy(float) for g in got])
+    t["to_chainage"] = np.fmax.reduce([g["to_chainage"].to_numpy(float) for g in got])
+    return t
 
 
 def _combine(runs: list[_LineRun], ids: list[str]) -> Result:
@@ -425,7 +489,8 @@ def _combine(runs: list[_LineRun], ids: list[str]) -> Result:
         profiles=np.vstack([r.profiles for r in rs]), metadata=meta, epochs=levels,
         options=pd.concat([r.options for r in rs], ignore_index=True),
         lines={r.line_id: r.line for r in runs},
-        economics=pd.concat([r.economics for r in rs], ignore_index=True))
+        economics=pd.concat([r.economics for r in rs], ignore_index=True),
+        structures=_combine_structures([r.structures for r in rs]))
 
 
 def _survey_sigma(table: pd.DataFrame, s: Settings) -> np.ndarray:
@@ -648,7 +713,7 @@ def summary(result: Result) -> dict[str, float]:
     """Length per status (m) and station counts, for logs and the report."""
     st = result.stretches
     out: dict[str, float] = {}
-    for status in ("ok", "watch", "deficit", "no_data"):
+    for status in STATUSES:
         out[f"length_{status}"] = float(st.length[st.status == status].sum())
         out[f"stations_{status}"] = int((result.stations["status"] == status).sum())
     return out

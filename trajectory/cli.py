@@ -19,6 +19,7 @@ import click
 from . import CAUTION, __version__
 from .errors import FileOverwriteError, TrajectoryError, TrajectoryWarning
 from .params import Settings, load_run_file
+from .status import STATUSES
 
 log = logging.getLogger("trajectory")
 
@@ -163,9 +164,10 @@ def assess(centreline: str, dem: tuple[str, ...], compare: tuple[str, ...], cond
             signal.signal(signal.SIGTERM, previous)
     bar.close()
     s = summary(result)
-    log.info("assessed %.0f m: ok %.0f m, watch %.0f m, deficit %.0f m, no_data %.0f m",
-             sum(s[f"length_{k}"] for k in ("ok", "watch", "deficit", "no_data")),
-             s["length_ok"], s["length_watch"], s["length_deficit"], s["length_no_data"])
+    log.info("assessed %.0f m: ok %.0f m, watch %.0f m, deficit %.0f m, no_data %.0f m, "
+             "excluded %.0f m", sum(s[f"length_{k}"] for k in STATUSES),
+             s["length_ok"], s["length_watch"], s["length_deficit"], s["length_no_data"],
+             s["length_excluded"])
     if result.epochs is not None:
         st = result.stations
         line = summary_text(result.epochs.labels, st["rate_significant"], st["projected_year"],

@@ -78,6 +78,10 @@ class Settings:
     # --- stations from a list, joining centreline parts
     stations_file: str = _p("", "File of chainages to place stations at (CSV with a `chainage` "
                             "column, or one number a line) instead of every --spacing m.")
+    structures_file: str = _p("", "Table of known structures and accepted exceptions (CSV, or "
+                              "any vector file with polygons): kind, effect (exclude | "
+                              "crest_level | note), chainage range or polygon; applied before "
+                              "the verdict.", group="outputs")
     gap_tolerance: float = _p(1.0, "Gaps between centreline parts up to this are closed; "
                               "larger gaps are refused and listed.",
                               unit="m", min=0.0, max=1000.0)

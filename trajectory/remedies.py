@@ -28,9 +28,16 @@ combined
     the berm-only width it is the berm, so it never needs more fill than the
     better of the two.
 
-Volumes are areas times the length each station stands for. Per stretch the
-options are given twice: designed on the worst station and applied over the
-whole stretch, and designed station by station and summed.
+Every option is judged by the rule the status used (:class:`Rule`: the
+characteristic outer slope and the measured berm, one requirement function,
+:func:`requirement_with`), so a crest raised by the option's raise meets the
+very required level the verdict compared with. Where the profile has an outer
+berm, the berm option widens it at its level. Volumes are areas times the
+length each station stands for. Per stretch the options are given twice: one
+design over the whole stretch (the largest raise, the widest berm, or a uniform
+combination), and designed station by station and summed; either is marked as
+closing the gap only after every station's margin has been recomputed with it
+built in (:func:`margin_with_option`).
 """
 
 from __future__ import annotations
@@ -112,16 +119,20 @@ def outline(g: Geometry, i: int, *, crest_raise: float = 0.0, berm_width: float 
 
 
 def largest_effective_berm(cond: StationConditions, g: Geometry, berm_level: np.ndarray,
-                           *, approach: str = "design") -> np.ndarray:
+                           *, approach: str = "design",
+                           tan_alpha: np.ndarray | None = None) -> np.ndarray:
     """Berm width (m) at which gamma_b reaches its lower bound 0.6 (EurOtop 2018).
 
     With rB = B / (B + Hm0 (n_below + n_above)) and gamma_b = 1 - rB (1 - rdb),
     solving gamma_b = 0.6 gives rB = 0.4 / (1 - rdb), i.e.
     B = rB Hm0 (n_below + n_above) / (1 - rB); rdb (hydraulics.berm_depth_factor,
     with the 2 % run-up of the run's approach above still water) does not depend on B.
+    The slopes below and above the berm are those of the requirement: ``tan_alpha``
+    (the characteristic slope the status used), by default the fitted outer slope.
     """
     swl = cond.water_level + cond.sea_level_rise
-    n = g.outer_slope
+    with np.errstate(divide="ignore", invalid="ignore"):
+        n = g.outer_slope if tan_alpha is None else 1.0 / np.asarray(tan_alpha, float)
     ru = hy.runup_2pct(cond.hm0, cond.tm10, 1.0 / n, gamma_f=cond.roughness,
                        gamma_beta=hy.gamma_beta_runup(cond.wave_angle), approach=approach)
     rdb = hy.berm_depth_factor(swl - berm_level, cond.hm0, runup=ru)
@@ -131,14 +142,68 @@ def largest_effective_berm(cond: StationConditions, g: Geometry, berm_level: np.
     return np.where(rdb < 1.0, b, 0.0)
 
 
-def _required(cond, g, width, berm_level, approach):
+@dataclass(frozen=True)
+class Rule:
+    """The requirement rule of the status, per station, that every option is judged by.
+
+    ``tan_alpha`` is the slope tangent the status used (the characteristic outer
+    slope, EurOtop 2018 section 5.3.3); ``berm_width`` and ``berm_level`` the
+    outer berm it counted (0 and NaN where none). An option's berm widens that
+    berm at its level; where there is none it is a new berm at ``new_level``.
+    """
+
+    tan_alpha: np.ndarray | None
+    berm_width: np.ndarray
+    berm_level: np.ndarray
+    approach: str = "design"
+
+    @staticmethod
+    def fitted(n: int, approach: str = "design") -> Rule:
+        """The rule without a characteristic slope or measured berm (fitted slope)."""
+        return Rule(None, np.zeros(n), np.full(n, np.nan), approach)
+
+    @staticmethod
+    def of_stations(stations: pd.DataFrame, approach: str = "design") -> Rule:
+        """The rule the status used, from the station table's own columns."""
+        n = len(stations)
+        tan = stations["tan_alpha"].to_numpy(float) if "tan_alpha" in stations else None
+        bw = (stations["outer_berm_width"].to_numpy(float) if "outer_berm_width" in stations
+              else np.zeros(n))
+        bl = (stations["outer_berm_level"].to_numpy(float) if "outer_berm_level" in stations
+              else np.full(n, np.nan))
+        return Rule(tan, bw, bl, approach)
+
+    def take(self, idx: np.ndarray) -> Rule:
+        return Rule(None if self.tan_alpha is None else self.tan_alpha[idx],
+                    self.berm_width[idx], self.berm_level[idx], self.approach)
+
+    def berm(self, new_level: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """(level, existing width) of the berm an option widens, per station."""
+        has = np.isfinite(self.berm_width) & (self.berm_width > 0) & np.isfinite(self.berm_level)
+        return (np.where(has, self.berm_level, new_level),
+                np.where(has, self.berm_width, 0.0))
+
+
+def requirement_with(cond: StationConditions, g: Geometry, rule: Rule, *,
+                     added_width: np.ndarray | float, level: np.ndarray,
+                     base_width: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Required level and gamma_b with the outer berm widened by ``added_width``.
+
+    The one call of :func:`trajectory.requirement.required_level` for options, with
+    the status's slope tangent; with ``added_width`` 0 it is the status's own
+    requirement (the crest level only enters the overtopping at the crest).
+    """
+    n = g.crest_level.size
+    width = base_width + np.broadcast_to(np.asarray(added_width, float), (n,))
     req = required_level(cond, outer_slope=g.outer_slope, crest_level=g.crest_level,
-                         approach=approach, berm_width=width, berm_level=berm_level)
+                         approach=rule.approach, tan_alpha=rule.tan_alpha,
+                         berm_width=width, berm_level=level)
     return req.required_level, req.gamma_b
 
 
 def _fields(obj) -> dict:
-    return {k: np.asarray(v) for k, v in obj.__dict__.items() if v is not None}
+    return {k: np.asarray(v) for k, v in obj.__dict__.items()
+            if v is not None and not isinstance(v, str)}
 
 
 def _repeat(obj, k: int):
@@ -151,24 +216,42 @@ def _take(obj, idx: np.ndarray):
     return type(obj)(**{k: v[idx] if v.ndim else v for k, v in _fields(obj).items()})
 
 
+def _repeat_rule(rule: Rule, k: int) -> Rule:
+    return Rule(None if rule.tan_alpha is None else np.repeat(rule.tan_alpha, k),
+                np.repeat(rule.berm_width, k), np.repeat(rule.berm_level, k), rule.approach)
+
+
+def effective_raise(crest_raise: np.ndarray | float, settle: np.ndarray) -> np.ndarray:
+    """The raise left once the new fill has settled: ``dh - settlement``, never below 0."""
+    dh = np.broadcast_to(np.asarray(crest_raise, float), settle.shape)
+    return np.where(dh > 0, np.maximum(dh - settle, 0.0), 0.0)
+
+
 def station_options(
     cond: StationConditions, g: Geometry, *, target_margin: np.ndarray,
     berm_above_swl: float = 0.0, fill_settlement: np.ndarray | float = 0.0,
-    approach: str = "design",
+    approach: str = "design", rule: Rule | None = None,
 ) -> dict[str, dict[str, np.ndarray]]:
     """The three options per station (columnar), each as a dict of arrays.
 
     ``target_margin`` is the margin the option must reach (0 for a deficit).
-    Keys per option: crest_raise, berm_level, berm_width, area, footprint_outer,
+    ``rule`` is the requirement the status used (:class:`Rule`); by default the
+    fitted outer slope without a measured berm. Keys per option: crest_raise,
+    berm_level, berm_width (the width added), area, footprint_outer,
     footprint_inner, gamma_b, closes_gap, remaining (m still short).
     """
     n = g.crest_level.size
+    rule = rule or Rule.fitted(n, approach)
     target = g.crest_level - np.broadcast_to(target_margin, (n,))
     settle = np.broadcast_to(np.asarray(fill_settlement, float), (n,))
     swl = cond.water_level + cond.sea_level_rise
-    lb = swl + berm_above_swl
+    lb, base = rule.berm(swl + berm_above_swl)
     zero = np.zeros(n)
-    req0, _ = _required(cond, g, zero, lb, approach)
+
+    def req_at(c, gg, rr, width, level, base_w):
+        return requirement_with(c, gg, rr, added_width=width, level=level, base_width=base_w)
+
+    req0, _ = req_at(cond, g, rule, zero, lb, base)
     short = np.maximum(req0 - target, 0.0)
 
     # raise: the deficit plus the settlement of the new fill
@@ -180,20 +263,22 @@ def station_options(
         "closes_gap": np.ones(n, bool), "remaining": zero}}
 
     # outer berm: bisection on the width (required level falls as the berm widens)
-    b_max = np.nan_to_num(largest_effective_berm(cond, g, lb, approach=approach))
-    req_max, gb_max = _required(cond, g, b_max, lb, approach)
+    b_total = np.nan_to_num(largest_effective_berm(cond, g, lb, approach=approach,
+                                                   tan_alpha=rule.tan_alpha))
+    b_max = np.maximum(b_total - base, 0.0)
+    req_max, gb_max = req_at(cond, g, rule, b_max, lb, base)
     closes = (req_max <= target + 1e-9) | (short <= 0)
     lo, hi = zero.copy(), b_max.copy()
     for _ in range(60):   # to a tenth of a millimetre of width (about 20 halvings)
         if not np.any(hi - lo > WIDTH_TOLERANCE):
             break
         mid = 0.5 * (lo + hi)
-        r_mid, _ = _required(cond, g, mid, lb, approach)
+        r_mid, _ = req_at(cond, g, rule, mid, lb, base)
         ok = r_mid <= target
         hi = np.where(ok, mid, hi)
         lo = np.where(ok, lo, mid)
     width = np.where(short <= 0, 0.0, np.where(closes, hi, b_max))
-    req_b, gb = _required(cond, g, width, lb, approach)
+    req_b, gb = req_at(cond, g, rule, width, lb, base)
     out["outer_berm"] = {
         "crest_raise": zero, "berm_level": lb, "berm_width": width,
         "area": berm_area(width, lb, g), "footprint_outer": width,
@@ -204,8 +289,8 @@ def station_options(
     frac = np.linspace(0.0, 1.0, SEARCH_POINTS)
     grid = np.concatenate([frac[None, :] * b_max[:, None], width[:, None]], axis=1)
     k_pts = grid.shape[1]
-    cond_g, g_flat = _repeat(cond, k_pts), _repeat(g, k_pts)
-    r_g, gb_g = _required(cond_g, g_flat, grid.ravel(), np.repeat(lb, k_pts), approach)
+    r_g, gb_g = req_at(_repeat(cond, k_pts), _repeat(g, k_pts), _repeat_rule(rule, k_pts),
+                       grid.ravel(), np.repeat(lb, k_pts), np.repeat(base, k_pts))
     r_g, gb_g = r_g.reshape(grid.shape), gb_g.reshape(grid.shape)
     g_g = Geometry(**{k_: np.asarray(v, float)[:, None] for k_, v in g.__dict__.items()})
     need = np.maximum(r_g - target[:, None], 0.0)
@@ -225,6 +310,53 @@ def station_options(
     return out
 
 
+def margin_with_option(cond: StationConditions, g: Geometry, rule: Rule, *,
+                       crest_raise: np.ndarray | float, added_width: np.ndarray | float,
+                       new_level: np.ndarray, fill_settlement: np.ndarray) -> np.ndarray:
+    """Each station's margin with an option built in, under the status's rule.
+
+    The crest is raised by ``crest_raise`` less the settlement of the new fill;
+    the outer berm (the measured one, or a new one at ``new_level``) is widened by
+    ``added_width``; the required level is computed again by
+    :func:`requirement_with`. An option closes the gap where this is >= 0.
+    """
+    level, base = rule.berm(new_level)
+    req, _ = requirement_with(cond, g, rule, added_width=added_width, level=level,
+                              base_width=base)
+    return g.crest_level + effective_raise(crest_raise, fill_settlement) - req
+
+
+#: tolerance of the closing check (m): below a tenth of a millimetre counts as reached
+CLOSE_TOLERANCE = 1e-4
+
+
+def _stretch_design(cond, g, rule, opts, *, target, settle, extents, lb):
+    """One design per option over a whole stretch, sized so every station reaches target.
+
+    raise: the largest station raise; outer_berm: the widest station berm;
+    combined: a uniform added berm width (searched over 0..the widest effective one)
+    and the uniform raise still needed with it, least total fill.
+    """
+    level, base = rule.berm(lb)
+    designs = {"raise": (float(np.max(opts["raise"]["crest_raise"])), 0.0),
+               "outer_berm": (0.0, float(np.max(opts["outer_berm"]["berm_width"])))}
+    b_all = np.maximum(np.nan_to_num(largest_effective_berm(
+        cond, g, level, approach=rule.approach, tan_alpha=rule.tan_alpha)) - base, 0.0)
+    widths = np.unique(np.concatenate([np.linspace(0.0, float(np.max(b_all, initial=0.0)), 41),
+                                       [designs["outer_berm"][1]]]))
+    best = (np.inf, 0.0, 0.0)
+    for w in widths:
+        req, _ = requirement_with(cond, g, rule, added_width=w, level=level, base_width=base)
+        need = np.maximum(req - (g.crest_level - target), 0.0)
+        dh = float(np.max(np.where(need > 0, need + settle, 0.0)))
+        area = np.sum((raise_area(np.full_like(need, dh), g) + berm_area(
+            np.full_like(need, w), level, g)) * extents)
+        if np.isfinite(area) and area < best[0] - 1e-9:
+            best = (float(area), dh, float(w))
+    designs["combined"] = (best[1], best[2])
+    return designs, level
+
+
 def plan_options(
     stations: pd.DataFrame, cond: StationConditions, stretches, *, extents: np.ndarray,
     watch_band: float, include_watch: bool = False, berm_above_swl: float = 0.0,
@@ -233,15 +365,20 @@ def plan_options(
 ) -> pd.DataFrame:
     """One row per stretch, basis and option: the remedies of every deficit stretch.
 
-    ``extents`` is the chainage length each station stands for (m). Deficit
-    stretches target a margin of 0; with ``include_watch`` watch stretches
-    target the watch band. ``basis`` is ``worst_station`` (the worst station's
-    design over the whole stretch) or ``every_station`` (each station's own
-    design, volumes summed, widths and raises their maxima).
+    Every option is judged by the rule the status used (:meth:`Rule.of_stations`:
+    the characteristic slope, the measured berm). ``extents`` is the chainage
+    length each station stands for (m). Deficit stretches target a margin of 0;
+    with ``include_watch`` watch stretches target the watch band. ``basis`` is
+    ``whole_stretch`` (one design over the stretch, sized by the station that
+    needs most: ``chainage``) or ``every_station`` (each station's own design,
+    volumes summed, widths and raises their maxima). ``closes_gap`` is checked
+    afterwards: the margin of every station with the option built in
+    (:func:`margin_with_option`) reaches the target.
     """
     g = Geometry(*(stations[c].to_numpy(float) for c in (
         "crest_level", "crest_width", "outer_slope", "inner_slope",
         "outer_toe_level", "inner_toe_level")))
+    rule_all = Rule.of_stations(stations, approach)
     settle = np.broadcast_to(np.asarray(fill_settlement, float), (len(stations),))
     wanted = ("deficit", "watch") if include_watch else ("deficit",)
     rows = []
@@ -259,7 +396,7 @@ def plan_options(
                               for i, idx in zip(picked, members, strict=True)])
     all_opts = station_options(cond.take(every), _take(g, every), target_margin=targets,
                                berm_above_swl=berm_above_swl, fill_settlement=settle[every],
-                               approach=approach)
+                               approach=approach, rule=rule_all.take(every))
     bounds = np.concatenate([[0], np.cumsum([idx.size for idx in members])])
     for k, (i, idx) in enumerate(zip(picked, members, strict=True)):
         if idx.size == 0:
@@ -267,37 +404,53 @@ def plan_options(
         status = stretches.status[i]
         part = slice(bounds[k], bounds[k + 1])
         opts = {name: {key: v[part] for key, v in o.items()} for name, o in all_opts.items()}
+        c_i, g_i, r_i = cond.take(idx), _take(g, idx), rule_all.take(idx)
+        s_i, t_i, e_i = settle[idx], targets[part], extents[idx]
+        lb = c_i.water_level + c_i.sea_level_rise + berm_above_swl
         length = float(stretches.to_chainage[i] - stretches.from_chainage[i])
-        worst = int(np.argmin(margin[idx]))
         base = {"from_chainage": float(stretches.from_chainage[i]),
                 "to_chainage": float(stretches.to_chainage[i]), "length": length,
                 "status": status, "stretch": int(i)}
+        designs, level = _stretch_design(c_i, g_i, r_i, opts, target=t_i, settle=s_i,
+                                         extents=e_i, lb=lb)
         for name in OPTIONS:
+            # one design over the whole stretch, checked at every station
+            dh, w = designs[name]
+            after = margin_with_option(c_i, g_i, r_i, crest_raise=dh, added_width=w,
+                                       new_level=lb, fill_settlement=s_i) - t_i
+            gov = int(np.argmin(after))
+            _, gb = requirement_with(c_i, g_i, r_i, added_width=w, level=level,
+                                     base_width=r_i.berm(lb)[1])
+            area = raise_area(np.full(idx.size, dh), g_i) + berm_area(
+                np.full(idx.size, w), level, g_i)
+            rows.append({**base, "basis": "whole_stretch", "option": name,
+                         "chainage": float(chainage[idx[gov]]), "crest_raise": dh,
+                         "berm_level": float(level[gov]) if w > 0 else np.nan,
+                         "berm_width": w, "fill_volume": float(np.sum(area * e_i)),
+                         "footprint_outer": w + float(g_i.outer_slope[gov]) * dh,
+                         "footprint_inner": float(g_i.inner_slope[gov]) * dh,
+                         "gamma_b": float(gb[gov]),
+                         "closes_gap": bool(after.min() >= -CLOSE_TOLERANCE),
+                         "remaining_deficit": float(max(-after.min(), 0.0))})
+            # each station its own design, checked station by station
             o = opts[name]
-            rows.append({**base, "basis": "worst_station", "option": name,
-                         "chainage": float(chainage[idx[worst]]),
-                         "crest_raise": o["crest_raise"][worst],
-                         "berm_level": o["berm_level"][worst],
-                         "berm_width": o["berm_width"][worst],
-                         "fill_volume": o["area"][worst] * length,
-                         "footprint_outer": o["footprint_outer"][worst],
-                         "footprint_inner": o["footprint_inner"][worst],
-                         "gamma_b": o["gamma_b"][worst],
-                         "closes_gap": bool(o["closes_gap"][worst]),
-                         "remaining_deficit": o["remaining"][worst]})
+            after = margin_with_option(c_i, g_i, r_i, crest_raise=o["crest_raise"],
+                                       added_width=o["berm_width"], new_level=lb,
+                                       fill_settlement=s_i) - t_i
             with np.errstate(all="ignore"):
                 rows.append({**base, "basis": "every_station", "option": name,
                              "chainage": np.nan,
                              "crest_raise": float(np.max(o["crest_raise"])),
                              "berm_level": float(np.nanmax(o["berm_level"]))
-                             if np.isfinite(o["berm_level"]).any() else np.nan,
+                             if (np.isfinite(o["berm_level"]) & (o["berm_width"] > 0)).any()
+                             else np.nan,
                              "berm_width": float(np.max(o["berm_width"])),
-                             "fill_volume": float(np.sum(o["area"] * extents[idx])),
+                             "fill_volume": float(np.sum(o["area"] * e_i)),
                              "footprint_outer": float(np.max(o["footprint_outer"])),
                              "footprint_inner": float(np.max(o["footprint_inner"])),
                              "gamma_b": float(np.min(o["gamma_b"])),
-                             "closes_gap": bool(np.all(o["closes_gap"])),
-                             "remaining_deficit": float(np.max(o["remaining"]))})
+                             "closes_gap": bool(after.min() >= -CLOSE_TOLERANCE),
+                             "remaining_deficit": float(max(-after.min(), 0.0))})
     df = pd.DataFrame(rows, columns=list(OPTION_COLUMNS))
     if df.empty:
         return df
@@ -325,6 +478,6 @@ OPTION_COLUMNS = (
 )
 
 
-__all__ = ["CAVEAT", "COST_NOTE", "OPTIONS", "OPTION_COLUMNS", "Geometry", "berm_area",
-           "largest_effective_berm",
-           "outline", "plan_options", "raise_area", "station_options"]
+__all__ = ["CAVEAT", "COST_NOTE", "OPTIONS", "OPTION_COLUMNS", "Geometry", "Rule", "berm_area",
+           "effective_raise", "largest_effective_berm", "margin_with_option", "outline",
+           "plan_options", "raise_area", "requirement_with", "station_options"]

@@ -7,7 +7,9 @@ from dataclasses import dataclass
 import numpy as np
 
 #: station statuses, in order of severity (the public values of `status`)
-STATUSES = ("ok", "watch", "deficit", "no_data")
+STATUSES = ("ok", "watch", "deficit", "no_data", "excluded")
+#: the status of stations a known structure excludes from the verdict (structures.py)
+EXCLUDED = "excluded"
 
 
 def classify(margin: np.ndarray, *, watch_band: float) -> np.ndarray:
@@ -80,7 +82,7 @@ def merge_stretches(
 
 #: rank of each status for the minimum-stretch-length rule (higher = more severe);
 #: no_data ranks lowest: a short unreadable run takes its neighbours' status
-SEVERITY = {"no_data": -1, "ok": 0, "watch": 1, "deficit": 2}
+SEVERITY = {"excluded": -2, "no_data": -1, "ok": 0, "watch": 1, "deficit": 2}
 
 
 def _runs(st: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -99,7 +101,8 @@ def absorb_short_runs(
     neighbour is more severe than the run itself; repeated until nothing
     changes. A run is never given a milder status, so a short deficit is never
     hidden; one ok or unreadable station inside a deficit stretch no longer
-    splits it. Severity: no_data < ok < watch < deficit (:data:`SEVERITY`).
+    splits it. Severity: no_data < ok < watch < deficit (:data:`SEVERITY`); runs of
+    ``excluded`` stations are left as they are.
     """
     st = np.asarray(status, dtype=object).copy()
     lo, hi = station_extents(chainage, start, end)
@@ -110,7 +113,9 @@ def absorb_short_runs(
         rank = rank_of(st[first])
         left = np.concatenate([[-np.inf], rank[:-1]])
         right = np.concatenate([rank[1:], [-np.inf]])
-        change = (length < min_length) & (np.maximum(left, right) > rank)
+        # an excluded run (a known structure) neither takes nor gives a status
+        change = ((length < min_length) & (np.maximum(left, right) > rank)
+                  & (st[first] != EXCLUDED))
         if not change.any():
             break
         run_status = st[first]

@@ -979,6 +979,31 @@ def write_frequency_csv(path: str | Path, spec: LeveeSpec) -> Path:
     return path
 
 
+#: the demo's known structures and accepted exceptions (invented), as fractions of the
+#: line's length: (id, kind, effect, from, to, crest level or None, note)
+DEMO_STRUCTURES: tuple[tuple[str, str, str, float, float, float | None, str], ...] = (
+    ("W1", "crest_wall", "crest_level", 1840 / 3000, 1905 / 3000, 6.10,
+     "parapet wall on the crest, top level from the as-built drawing"),
+    ("R1", "ramp", "exclude", 2480 / 3000, 2520 / 3000, None,
+     "road ramp to the ferry lane: assessed separately"),
+    ("A1", "accepted", "note", 520 / 3000, 560 / 3000, None,
+     "deficit known; raising scheduled with the next works programme"),
+    ("C1", "culvert", "note", 1195 / 3000, 1205 / 3000, None, "culvert under the levee"),
+)
+
+
+def write_structures_csv(path: str | Path, length_m: float) -> Path:
+    """Write the demo's structures table (:data:`DEMO_STRUCTURES`, chainages scaled)."""
+    path = Path(path)
+    rows = ["structure_id,kind,effect,from_chainage,to_chainage,crest_level,note"]
+    for sid, kind, effect, a, b, level, note in DEMO_STRUCTURES:
+        lv = "" if level is None else f"{level:g}"
+        rows.append(f"{sid},{kind},{effect},{a * length_m:.1f},{b * length_m:.1f},{lv},"
+                    f'"{note}"')
+    path.write_text("\n".join(rows) + "\n", encoding="utf-8")
+    return path
+
+
 def write_centreline(path: str | Path, centreline: LineString, *, crs: str = CRS,
                      line_id: str = LINE_ID, name: str = LINE_NAME) -> Path:
     """Write the centreline as a one-feature GeoPackage layer ``centreline``."""
@@ -1068,15 +1093,16 @@ def write_scenario(out_dir: str | Path, *, spec: LeveeSpec | None = None,
     Files: ``levee.gpkg`` (layer ``centreline``), ``dem.tif`` (or with
     ``tile_size_m`` a folder ``dem/`` of tiles with ``dem.vrt``),
     ``sections.csv``, ``standards.csv`` with ``frequency.csv`` (the same
-    conditions with safety standards and frequency lines), ``truth.json`` and, with ``epochs``, ``dem_<year>.tif``
-    for each of ``spec.epochs``.
+    conditions with safety standards and frequency lines), ``structures.csv``,
+    ``truth.json`` and, with ``epochs``, ``dem_<year>.tif`` for each of ``spec.epochs``.
     """
     spec = spec or LeveeSpec()
     line = centreline if centreline is not None else make_centreline(spec.length_m)
     spec = _spec_for(line, spec)
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
-    names = ["levee.gpkg", "sections.csv", "standards.csv", "frequency.csv", "truth.json",
+    names = ["levee.gpkg", "sections.csv", "standards.csv", "frequency.csv", "structures.csv",
+             "truth.json",
              "dem.tif" if tile_size_m is None else "dem"]
     if epochs:
         names += [f"dem_{y}.tif" if tile_size_m is None else f"dem_{y}" for y in spec.epochs]
@@ -1102,6 +1128,7 @@ def write_scenario(out_dir: str | Path, *, spec: LeveeSpec | None = None,
     paths["sections"] = write_sections_csv(out / "sections.csv", spec)
     paths["standards"] = write_standards_csv(out / "standards.csv", spec)
     paths["frequency"] = write_frequency_csv(out / "frequency.csv", spec)
+    paths["structures"] = write_structures_csv(out / "structures.csv", spec.length_m)
     truth = truth_record(spec, line, epochs=epochs)
     if epochs:
         truth["epochs"]["files"] = {str(spec.survey_year): paths["dem"].relative_to(out).as_posix()}

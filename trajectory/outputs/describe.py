@@ -23,6 +23,7 @@ _STATUS_MEANING = {
     "watch": "margin between 0 and the watch band",
     "deficit": "crest below the required level",
     "no_data": "profile not interpretable",
+    "excluded": "excluded from the verdict by a known structure or accepted exception",
 }
 
 _DDL = (

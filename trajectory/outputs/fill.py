@@ -23,9 +23,10 @@ from ..status import station_extents
 
 #: columns of the stretch table, with units (after the stretch layer's fields)
 EXTRA_COLUMNS: dict[str, tuple[str, str]] = {
-    "crest_raise": ("m", "Largest crest raise needed in the stretch (required - crest level)"),
+    "crest_raise": ("m", "Crest raise that closes the stretch's gap: the raise option's "
+                    "(whole_stretch, incl. settlement of new fill); else required - crest"),
     "length_to_raise": ("m", "Chainage length whose crest is below the required level"),
-    "fill_volume": ("m3", "Estimated fill to raise the crest, keeping crest width and slopes"),
+    "fill_volume": ("m3", "Estimated fill of that raise, keeping crest width and slopes"),
 }
 
 
@@ -64,8 +65,14 @@ def station_fill(stations: pd.DataFrame, *, start: float, end: float) -> pd.Data
     return pd.DataFrame({"chainage": c, "dh": dh, "extent": hi - lo, "volume": area * (hi - lo)})
 
 
-def stretch_table(stations: pd.DataFrame, stretches: pd.DataFrame) -> pd.DataFrame:
-    """The stretches, worst margin first (no_data last), with raise, length and fill volume."""
+def stretch_table(stations: pd.DataFrame, stretches: pd.DataFrame,
+                  options: pd.DataFrame | None = None) -> pd.DataFrame:
+    """The stretches, worst margin first (no_data last), with raise, length and fill volume.
+
+    Where ``options`` (the options layer) has a whole-stretch ``raise`` for a
+    stretch, its raise and fill are the stretch's, so the summary, the tables and
+    the options give one figure per stretch.
+    """
     start = float(stretches["from_chainage"].min())
     end = float(stretches["to_chainage"].max())
     per = station_fill(stations, start=start, end=end)
@@ -83,6 +90,18 @@ def stretch_table(stations: pd.DataFrame, stretches: pd.DataFrame) -> pd.DataFra
     out["crest_raise"] = raise_max
     out["length_to_raise"] = length
     out["fill_volume"] = volume
+    if options is not None and not options.empty:
+        _from_options(out, options)
     key = out["worst_margin"].to_numpy(float)
     order = np.lexsort((out["from_chainage"].to_numpy(float), np.where(np.isnan(key), np.inf, key)))
     return out.iloc[order].reset_index(drop=True)
+
+
+def _from_options(out: pd.DataFrame, options: pd.DataFrame) -> None:
+    """Take crest_raise and fill_volume from the whole-stretch raise option (in place)."""
+    o = options[(options["basis"] == "whole_stretch") & (options["option"] == "raise")]
+    key = ["line_id", "from_chainage"] if "line_id" in out and "line_id" in o else ["from_chainage"]
+    got = out[key].merge(o[[*key, "crest_raise", "fill_volume"]], on=key, how="left")
+    has = got["crest_raise"].notna().to_numpy()
+    out.loc[has, "crest_raise"] = got["crest_raise"].to_numpy(float)[has]
+    out.loc[has, "fill_volume"] = got["fill_volume"].to_numpy(float)[has]

@@ -179,6 +179,16 @@ def option_frame(result) -> pd.DataFrame:
     return data
 
 
+def structure_frame(result) -> pd.DataFrame:
+    """The known structures applied (empty table when the run had none)."""
+    cols = field_names("structures")
+    t = getattr(result, "structures", None)
+    if t is None or t.empty:
+        return pd.DataFrame({c: pd.Series([], dtype=object if f.kind == "str" else float)
+                             for c, f in zip(cols, LAYERS["structures"][1], strict=True)})
+    return t[cols].reset_index(drop=True)
+
+
 def _run_time(result):
     """The run's time stamp (metadata), for every time written into the file."""
     from datetime import datetime
@@ -211,6 +221,7 @@ def write_geopackage(result, path: str | Path, *, overwrite: bool = False,
         "epochs": epoch_layer(result),
         "section_profiles": section_profile_table(result),
         "economics": economics_frame(result),
+        "structures": structure_frame(result),
     }
     assert set(layers) == set(LAYERS)
     slds = sld_paths(path) if styles else {}

@@ -47,7 +47,7 @@ def stored_chainages(stretches: pd.DataFrame, stations: pd.DataFrame,
     ch = worst_chainages(stretches, stations)
     if options is None or options.empty:
         return ch
-    design = options.loc[options["basis"] == "worst_station", "chainage"].to_numpy(float)
+    design = options.loc[options["basis"] == "whole_stretch", "chainage"].to_numpy(float)
     design = np.unique(design[np.isfinite(design)])
     return np.concatenate([ch, design[~np.isin(design, ch)]])
 

@@ -29,7 +29,14 @@ from matplotlib.figure import Figure
 from .. import CAUTION
 from ..errors import InputFileError
 from ..status import STATUSES
-from . import plots, report_epochs, report_remedies, report_standards, report_uncertainty
+from . import (
+    plots,
+    report_epochs,
+    report_remedies,
+    report_standards,
+    report_structures,
+    report_uncertainty,
+)
 from .atomic import atomic_path
 from .fill import stretch_table
 from .plots import figure_html
@@ -62,6 +69,7 @@ SectionBuilder = Callable[[ReportData], "Section | None"]
 #: builders of sections every report carries, after the core ones; other stages
 #: add theirs here, one line each (e.g. ``report_epochs.epoch_section,``)
 SECTION_BUILDERS: tuple[SectionBuilder, ...] = (
+    report_structures.structure_section,      # known structures and exceptions applied
     report_uncertainty.uncertainty_section,   # how sure each verdict is
     report_epochs.epoch_section,              # several surveys (None for one)
     report_remedies.remedy_section,           # reinforcement options
@@ -194,7 +202,9 @@ def render_html(data: ReportData, *, extra_sections: Sequence[Section] = ()) -> 
     """The report page as one HTML string (pure: nothing is read or written)."""
     st, sr, meta = data.stations, data.stretches, data.metadata
     attrs = pd.DataFrame(sr.drop(columns="geometry"))[field_names("stretches")]
-    table = stretch_table(st, attrs)
+    opt = data.layers.get("options")
+    table = stretch_table(st, attrs, None if opt is None else
+                          pd.DataFrame(opt.drop(columns="geometry", errors="ignore")))
     figs = summary_figures(st, attrs)
     chosen = worst_chainages(attrs, st)
     have = np.isin(chosen, data.profiles["chainage"].to_numpy(float))

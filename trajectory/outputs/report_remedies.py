@@ -1,9 +1,9 @@
-"""Report section for the remedies: options drawn on the worst station's cross-section, volumes.
+"""Report section for the remedies: options drawn on the governing station's section, volumes.
 
 Built from the results GeoPackage (:class:`~.report.ReportData`): the
-``options`` layer, the worst station's fields in ``stations`` and its stored
-ground profile in ``section_profiles`` (which keeps the station every
-worst-station design was made on, see :mod:`.profiles`).
+``options`` layer, the governing station's fields in ``stations`` and its stored
+ground profile in ``section_profiles`` (which keeps the station that governs
+every whole-stretch design, see :mod:`.profiles`).
 """
 
 from __future__ import annotations
@@ -34,7 +34,7 @@ _STYLE = {"raise": ("#1b5e9e", "--"), "outer_berm": ("#c26a00", "-."),
 
 def options_figure(station: pd.Series, rows: pd.DataFrame,
                    profile: pd.DataFrame | None = None) -> Figure:
-    """The worst station's measured profile, its idealised outline and each option's outline."""
+    """The governing station's measured profile, its idealised outline and each option's."""
     g = Geometry(*(np.array([float(station[c])]) for c in (
         "crest_level", "crest_width", "outer_slope", "inner_slope", "outer_toe_level",
         "inner_toe_level")))
@@ -62,7 +62,8 @@ def options_figure(station: pd.Series, rows: pd.DataFrame,
                ls=(0, (12, 4)), label="required crest level")
     ax.set_xlabel("offset from centreline (m), + towards the water")
     ax.set_ylabel("level (m, DEM datum)")
-    ax.set_title(f"chainage {float(station['chainage']):,.0f} m: options on the worst station",
+    ax.set_title(f"chainage {float(station['chainage']):,.0f} m: options over the stretch, "
+                 "drawn on the station that governs the raise",
                  fontsize=8)
     ax.grid(alpha=0.3, lw=0.4)
     fig.legend(*ax.get_legend_handles_labels(), fontsize=7, ncol=4,
@@ -137,7 +138,7 @@ def remedy_section(data: ReportData, *, n_worst: int = N_WORST) -> tuple[str, st
     for a in chosen:
         rows = opt[opt["from_chainage"] == a]
         head = rows.iloc[0]
-        ws = rows[rows["basis"] == "worst_station"]
+        ws = rows[rows["basis"] == "whole_stretch"]
         parts.append(
             f"<h3>Stretch {_f(head['from_chainage'], ',.0f')}–{_f(head['to_chainage'], ',.0f')}"
             f" m ({_f(head['length'], ',.0f')} m, {html.escape(str(head['status']))}, worst "
@@ -147,6 +148,6 @@ def remedy_section(data: ReportData, *, n_worst: int = N_WORST) -> tuple[str, st
             station = data.stations.iloc[int(np.argmin(np.abs(st_ch - wc)))]
             prof = data.profiles[np.isclose(prof_ch, wc)]
             parts.append(figure_html(options_figure(station, ws, prof),
-                                     f"options at chainage {wc:,.0f} m"))
+                                     f"options drawn at chainage {wc:,.0f} m"))
         parts.append(options_table(rows))
     return TITLE, "\n".join(parts)

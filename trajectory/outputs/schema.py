@@ -30,7 +30,7 @@ STATION_FIELDS: tuple[Field, ...] = (
     _f("required_level", "float", "m",
        "Required crest level = still water + freeboard + settlement"),
     _f("margin", "float", "m", "crest_level - required_level (negative: too low)"),
-    _f("status", "str", "", "ok | watch | deficit | no_data"),
+    _f("status", "str", "", "ok | watch | deficit | no_data | excluded"),
     _f("water_level", "float", "m", "Design water level of the section"),
     _f("sea_level_rise", "float", "m", "Sea-level-rise allowance"),
     _f("settlement", "float", "m", "Settlement allowance (extra construction height)"),
@@ -182,6 +182,16 @@ FREQUENCY_STATION_FIELDS: tuple[Field, ...] = (
        "rate; the survey year if already below (empty: not projected)"),
 )
 STATION_FIELDS = STATION_FIELDS + FREQUENCY_STATION_FIELDS
+# --- known structures and accepted exceptions (trajectory.structures)
+STATION_FIELDS = STATION_FIELDS + (
+    _f("ground_crest_level", "float", "m",
+       "Crest level read from the DEM (crest_level differs where a structure gives it)"),
+    _f("structure_id", "str", "", "Known structure(s) or exception(s) at the station, ';'-joined"),
+    _f("structure_kind", "str", "", "Their kind(s), ';'-joined"),
+    _f("structure_effect", "str", "",
+       "exclude (status excluded) | crest_level (crest_level is the given level) | note"),
+    _f("structure_note", "str", "", "Their note(s), ';'-joined"),
+)
 
 CROSS_SECTION_FIELDS: tuple[Field, ...] = (
     _f("chainage", "float", "m", "Chainage of the station"),
@@ -202,7 +212,7 @@ STRETCH_FIELDS: tuple[Field, ...] = (
     _f("from_chainage", "float", "m", "Start of the stretch"),
     _f("to_chainage", "float", "m", "End of the stretch"),
     _f("length", "float", "m", "Length of the stretch"),
-    _f("status", "str", "", "ok | watch | deficit | no_data"),
+    _f("status", "str", "", "ok | watch | deficit | no_data | excluded"),
     _f("worst_margin", "float", "m", "Smallest margin in the stretch"),
     _f("worst_chainage", "float", "m", "Chainage of the smallest margin"),
     _f("stations", "int", "", "Number of stations in the stretch"),
@@ -271,22 +281,38 @@ OPTION_FIELDS: tuple[Field, ...] = (
     _f("to_chainage", "float", "m", "End of the stretch"),
     _f("length", "float", "m", "Length of the stretch"),
     _f("status", "str", "", "Status of the stretch (deficit, or watch on request)"),
-    _f("basis", "str", "", "worst_station: the worst station's design over the stretch; "
-       "every_station: each station's own design, summed"),
+    _f("basis", "str", "", "whole_stretch: one design over the stretch, sized so every "
+       "station reaches the target; every_station: each station's own design, summed"),
     _f("option", "str", "", "raise | outer_berm | combined"),
-    _f("chainage", "float", "m", "Station the design is based on (worst_station basis)"),
+    _f("chainage", "float", "m",
+       "Station that governs the design: least margin with it built in (whole_stretch)"),
     _f("crest_raise", "float", "m", "Crest raise, incl. the settlement allowance of new fill"),
     _f("berm_level", "float", "m", "Level of the outer berm (DEM datum)"),
-    _f("berm_width", "float", "m", "Width of the outer berm"),
+    _f("berm_width", "float", "m", "Width added to the outer berm (the measured one, or new)"),
     _f("fill_volume", "float", "m3", "Fill volume over the stretch (screening estimate)"),
     _f("footprint_outer", "float", "m", "Widening of the footprint on the outer side"),
     _f("footprint_inner", "float", "m", "Widening of the footprint on the inner side"),
     _f("gamma_b", "float", "-", "Berm influence factor EurOtop (2018) of the option"),
-    _f("closes_gap", "int", "", "1 where the option reaches the required level"),
+    _f("closes_gap", "int", "",
+       "1 where every station's margin, recomputed with the option built in under the "
+       "status's rule (characteristic slope, measured berm), reaches the target"),
     _f("remaining_deficit", "float", "m", "What is still short where the option cannot close"),
     _f("cost", "float", "cost units",
        "fill_volume x fill_unit_cost: an order-of-magnitude estimate"),
     _f("cheapest", "int", "", "1 for the least-fill option that closes the gap"),
+)
+
+STRUCTURE_FIELDS: tuple[Field, ...] = (
+    _f("structure_id", "str", "", "Id of the structure or exception (S1, S2, ... if not given)"),
+    _f("line_id", "str", "", "Line it belongs to (empty: every line)"),
+    _f("kind", "str", "",
+       "ramp | gate | culvert | crossing | crest_wall | accepted | scheduled | other"),
+    _f("effect", "str", "", "exclude | crest_level | note"),
+    _f("from_chainage", "float", "m", "Start (as given, or the first station a polygon covers)"),
+    _f("to_chainage", "float", "m", "End (as given, or the last station a polygon covers)"),
+    _f("crest_level", "float", "m", "Level used as the crest (effect crest_level: wall top, sill)"),
+    _f("note", "str", "", "The manager's note"),
+    _f("stations", "int", "", "Number of stations it covers in this run"),
 )
 
 METADATA_FIELDS: tuple[Field, ...] = (
@@ -305,6 +331,7 @@ LAYERS: dict[str, tuple[str | None, tuple[Field, ...]]] = {
     "epochs": ("Point", EPOCH_FIELDS),
     "section_profiles": (None, SECTION_PROFILE_FIELDS),
     "economics": (None, ECONOMICS_FIELDS),
+    "structures": (None, STRUCTURE_FIELDS),
 }
 
 # --- several lines in one run: the spatial layers lead with the line's id

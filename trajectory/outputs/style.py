@@ -27,6 +27,7 @@ STATUS_COLOURS: dict[str, str] = {
     "watch": "#F2B701",    # amber
     "deficit": "#A6103C",  # dark crimson
     "no_data": "#A0A0A0",  # grey
+    "excluded": "#40004B",  # dark plum: a known structure or accepted exception
 }
 #: outline and neutral line colour
 INK = "#303030"

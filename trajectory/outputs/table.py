@@ -36,9 +36,9 @@ def stretch_table_path(table: str | Path) -> Path:
 def write_stretch_table(result, path: str | Path, *, overwrite: bool = False) -> Path:
     """Write the stretches, worst margin first, with raise length and fill estimate, as CSV."""
     from .fill import stretch_table
-    from .geopackage import stretch_frame
+    from .geopackage import option_frame, stretch_frame
 
-    df = stretch_table(deficit_frame(result), stretch_frame(result))
+    df = stretch_table(deficit_frame(result), stretch_frame(result), option_frame(result))
     with atomic_path(path, overwrite=overwrite) as tmp:
         with open(tmp, "w", encoding="utf-8", newline="") as fh:
             fh.write(f"# {CAUTION} Fill volumes are estimates (method in the README).\n")

@@ -129,6 +129,7 @@ def write_result_workbook(result, path: str | Path, *, overwrite: bool = False) 
     from .table import deficit_frame
 
     st = deficit_frame(result)
-    return write_workbook(st, stretch_table(st, stretch_frame(result)),
+    options = option_frame(result)
+    return write_workbook(st, stretch_table(st, stretch_frame(result), options),
                           dict(sorted(result.metadata.items())), path, overwrite=overwrite,
-                          options=option_frame(result), economics=economics_frame(result))
+                          options=options, economics=economics_frame(result))
