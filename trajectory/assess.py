@@ -23,7 +23,7 @@ import rasterio
 from pyproj import CRS
 from shapely.geometry import LineString, MultiLineString
 
-from . import CAUTION, __version__, uncertainty
+from . import CAUTION, __version__, diagnosis, uncertainty
 from .chainage import Stations, crossing_sections, make_stations
 from .checks import check_chunk_memory, sections_off_the_line
 from .demread import DemReading, reading_rules, with_rules
@@ -293,7 +293,29 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     result = _combine(results, [pl.line_id for pl in plans])
     if inputs.line_id_field:
         result.metadata["line_count"] = len(lines)
+    _judge_run(result, inputs, s, dem)
     return result
+
+
+def _judge_run(result: Result, inputs: RunInputs, s: Settings, dem: DemInfo) -> None:
+    """Say why nothing was assessed (an incomplete run), and what looks implausible."""
+    st = result.stations
+    why = diagnosis.nothing_assessed_text(st, result.profiles, cell=dem.cell,
+                                          half_width=s.half_width, max_nodata=s.max_nodata,
+                                          bounds=dem.bounds, source=inputs.dem)
+    if why and "incomplete" not in result.metadata:  # said once, by the front end
+        result.metadata["incomplete"] = why
+    coarse = diagnosis.coarse_cell_text(dem.cell, inputs.dem)
+    notes = [coarse] if coarse and not why else []
+    levels = diagnosis.level_warnings(st)
+    notes += levels
+    side = None if levels else diagnosis.water_side_warning(  # sides judged on sane levels
+        st, result.profiles, result.offsets, crest_search=s.crest_search)
+    notes += [side] if side else []
+    for note in notes:
+        log.warning(note)
+    if notes:
+        result.metadata["plausibility"] = " | ".join(notes)
 
 
 @dataclass(frozen=True)
@@ -462,6 +484,10 @@ def _plan_line(c: Centreline, cond: Conditions, s: Settings, *, source: str) -> 
     st = make_stations(c.line, spacing=s.spacing, start_chainage=s.start_chainage,
                        reverse=s.reverse, smooth_length=s.smooth_length, chainages=listed)
     where = f"{source} (line {c.line_id!r})" if c.line_id else source
+    short = diagnosis.short_line_text(c.line.length, s.spacing, len(st),
+                                      f"line {c.line_id!r}" if c.line_id else "the centreline")
+    if short and not listed:
+        log.warning(short)
     # the section of each station: by chainage range, or by polygon (spatial join)
     sec, cond = assign_sections(cond, st.chainage, st.x, st.y, source=where)
     if "from_chainage" in cond.table and cond.table["from_chainage"].notna().all():
@@ -564,26 +590,33 @@ def _source_crs(path: str, layer: str | None) -> str:
 def assess(inputs: RunInputs, out: str | Path, settings: Settings | None = None, *,
            overwrite: bool = False, table: str | Path | None = None,
            progress: ProgressCallback | None = None,
-           report: str | Path | None = None) -> Result:
+           report: str | Path | None = None, read: dict[str, str] | None = None) -> Result:
     """Assess the levee line(s); write the GeoPackage, the deficit tables (CSV, XLSX), a report.
 
-    The files are written under temporary names and renamed into place together
-    once all are complete, so the GeoPackage and the tables always come from the
-    same run. On a run with several workers the GeoPackage is written side by
-    side with the tables.
+    The files (the report too) are written under temporary names and switched into
+    place together once all are complete, so they always come from the same run.
+    No output may be an input or another output; ``read`` names further files the
+    run read (e.g. ``{"--config": "run.toml"}``) that must not be replaced either.
+    On a run with several workers the GeoPackage is written side by side with the
+    tables.
     """
-    from .outputs import refuse_overwrite, write_deficit_table, write_geopackage
-    from .outputs.atomic import staged
+    from .outputs import write_deficit_table, write_geopackage
+    from .outputs.atomic import forget_switched, refuse_overwrite, staged
+    from .outputs.report import write_report
     from .outputs.style import sld_paths, write_slds
     from .outputs.table import stretch_table_path, write_stretch_table
+    from .outputs.targets import check_targets
     from .outputs.workbook import write_result_workbook
 
     s = settings or Settings()
-    out = Path(out)
-    table = Path(table) if table else out.with_suffix(".csv")
+    targets = output_targets(out, table, report)
+    check_targets(targets, input_files(inputs, s, read))
+    out, table = targets["--out"], targets["--table"]
     slds = sld_paths(out)
-    files = [out, table, stretch_table_path(table), table.with_suffix(".xlsx"), *slds.values()]
-    for p in (*files, *([Path(report)] if report else [])):
+    report_path = targets.get("--report")
+    files = list(targets.values())
+    forget_switched(files)
+    for p in files:
         refuse_overwrite(p, overwrite=overwrite)
     result = run(inputs, s, progress=progress)
     parallel = s.workers != 1 and not s.scheduler and (os.cpu_count() or 1) > 1
@@ -600,11 +633,64 @@ def assess(inputs: RunInputs, out: str | Path, settings: Settings | None = None,
             write_slds({layer: tmp[p] for layer, p in slds.items()}, overwrite=True)
 
         side_by_side([geopackage, tables], parallel=parallel)
-    if report:
-        from .outputs.report import write_report
-        write_report(out, report, overwrite=overwrite)
-    log.info("wrote %s, %s (+ stretches, .xlsx)%s", out, table, f" and {report}" if report else "")
+        if report_path is not None:  # part of the set: built from the staged GeoPackage
+            write_report(tmp[out], tmp[report_path], overwrite=True, name=out.name)
+    log.info("wrote %s, %s (+ stretches, .xlsx)%s", out, table,
+             f" and {report_path}" if report_path else "")
     return result
+
+
+def output_targets(out: str | Path, table: str | Path | None = None,
+                   report: str | Path | None = None) -> dict[str, Path]:
+    """Every file an assessment writes, by role; refuse names that cannot be right.
+
+    Raises
+    ------
+    OutputError
+        ``out`` empty or not a ``.gpkg``, ``table`` not a ``.csv``.
+    """
+    from .errors import OutputError
+    from .outputs.style import sld_paths
+    from .outputs.table import stretch_table_path
+
+    if not str(out).strip():
+        raise OutputError("--out is empty; give the result GeoPackage's file name, "
+                          "e.g. --out results.gpkg")
+    o = Path(out)
+    if o.suffix.lower() != ".gpkg":
+        raise OutputError(f"{o}: --out is the result GeoPackage; give a name ending in .gpkg "
+                          "(the deficit table goes beside it, or where --table says)")
+    t = Path(table) if table and str(table).strip() else o.with_suffix(".csv")
+    if t.suffix.lower() != ".csv":
+        raise OutputError(f"{t}: --table is the deficit table (CSV); give a name ending in "
+                          ".csv (the workbook .xlsx goes beside it)")
+    targets = {"--out": o, "--table": t, "the stretch table": stretch_table_path(t),
+               "the workbook": t.with_suffix(".xlsx")}
+    targets.update({f"the {layer} style file": p for layer, p in sld_paths(o).items()})
+    if report and str(report).strip():
+        targets["--report"] = Path(report)
+    return targets
+
+
+def input_files(inputs: RunInputs, s: Settings,
+                read: dict[str, str] | None = None) -> dict[str, str]:
+    """Every file a run reads, by role (a mosaic's tiles too), which no output may replace."""
+    files = {"--centreline": inputs.centreline, "--dem": inputs.dem,
+             "--conditions": inputs.conditions}
+    for e in inputs.earlier:
+        files[f"the earlier survey {e.label}"] = e.path
+    if s.stations_file:
+        files["stations_file"] = s.stations_file
+    files.update(read or {})
+    for role, p in list(files.items()):
+        if str(p).lower().endswith(".vrt") and Path(p).is_file():
+            try:
+                with rasterio.open(p) as ds:
+                    parts = ds.files[1:]
+            except rasterio.errors.RasterioError:  # judged when the run opens it
+                parts = []
+            files.update({f"a tile of {role}": q for q in parts})
+    return files
 
 
 def summary(result: Result) -> dict[str, float]:

@@ -23,7 +23,7 @@ import shapely
 from pyproj import CRS
 
 from . import hydraulics as hy
-from .checks import condition_plausibility
+from .checks import check_file, condition_plausibility
 from .errors import ConditionsError, InputError, InputFileError
 from .requirement import METHODS, WAVE_METHODS
 
@@ -123,9 +123,7 @@ def read_conditions(path: str | Path, *, layer: str | None = None,
     target_crs : pyproj.CRS, optional
         Working CRS the section polygons are reprojected to.
     """
-    p = Path(path)
-    if not p.exists():
-        raise InputFileError(f"{p}: conditions file not found")
+    p = check_file(path, role="conditions", option="--conditions")
     polygons = None
     if p.suffix.lower() in _TEXT_SUFFIXES:
         try:

@@ -213,6 +213,8 @@ def report_off_dem(chainage: np.ndarray, mask: np.ndarray) -> str | None:
     return msg
 
 
-def incomplete_text(failures: list[ChunkFailure]) -> str:
-    """One line naming every failed chainage range (the run metadata's `incomplete`)."""
-    return " | ".join(f.describe() for f in failures)
+def incomplete_text(failures: list[ChunkFailure], *, what: str = "the DEM") -> str:
+    """One line naming every failed chainage range and what to do (metadata `incomplete`)."""
+    ranges = " | ".join(f.describe() for f in failures)
+    return (f"{what} could not be read for {ranges}; those stations are no_data. "
+            "Repair the file and run again")
