@@ -50,6 +50,7 @@ from .faults import (
     incomplete_text,
     off_dem,
     part_size,
+    refuse_missing_tiles,
     report_off_dem,
 )
 from .lines import Centreline, read_centrelines, read_line_conditions, stack_stretches
@@ -146,6 +147,10 @@ def _dataset(path: str) -> rasterio.io.DatasetReader:
 def _read_chunk(chunk: _Chunk) -> tuple[np.ndarray, ProfileMetrics]:
     """Sample the sections of one chunk and read their profiles."""
     s = chunk.settings
+    # a tile missing from a mosaic reads as nodata without an error: made a read error
+    if chunk.dem_reading is not None:
+        refuse_missing_tiles(chunk.stations, float(np.abs(chunk.offsets).max()),
+                             chunk.dem_reading.missing, chunk.dem_path)
     # GDAL's block cache is bounded per process, so memory does not grow with the line;
     # the reading rules turn DEM values into levels (fill values, vertical unit)
     with rasterio.Env(GDAL_CACHEMAX=int(s.dem_cache * 2**20)):
@@ -159,9 +164,9 @@ def _read_chunk(chunk: _Chunk) -> tuple[np.ndarray, ProfileMetrics]:
     return z, prof
 
 
-def _crest_chunk(chunk: _Chunk) -> np.ndarray:
+def _crest_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
     """The crest levels of one chunk alone (an earlier survey needs nothing more)."""
-    return _read_chunk(chunk)[1].crest_level
+    return {"crest_level": _read_chunk(chunk)[1].crest_level}
 
 
 def _assess_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
@@ -265,12 +270,17 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     all_lines = lines[0].line if len(lines) == 1 else MultiLineString([c.line for c in lines])
     # how DEM values become levels (fill values, vertical unit), from a window near the line
     reading = reading_rules(dem.path, all_lines, margin=s.half_width, z_scale=s.dem_z_scale)
+    # each earlier terrain model read by its own rules (its unit, fill values, lost tiles)
+    earlier_rules = {e.path: reading_rules(e.path, all_lines, margin=s.half_width,
+                                           z_scale=s.dem_z_scale)
+                     for e in inputs.earlier if e.kind == "dem"}
     # read and validate the section conditions (per line with a line_id column)
     if inputs.line_id_field:
         conds = read_line_conditions(inputs.conditions, [c.line_id for c in lines])
     else:
+        extent = (s.start_chainage, s.start_chainage + lines[0].line.length)
         conds = {"": read_conditions(inputs.conditions, layer=inputs.conditions_layer,
-                                     target_crs=dem.crs)}
+                                     target_crs=dem.crs, extent=extent)}
     step = s.sample_step or dem.cell
     offsets = section_offsets(s.half_width, step)
     accuracy_from_settings(s)  # refuse a contradictory accuracy setting before any work
@@ -288,7 +298,8 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
         def line_progress(d: int, n: int, base: int = done) -> None:
             if progress is not None:
                 progress(base + d, total)
-        results.append(_run_line(inputs, s, dem, crs, pl, offsets, reading, line_progress))
+        results.append(_run_line(inputs, s, dem, crs, pl, offsets, reading, line_progress,
+                                 earlier_rules))
         done += len(pl.stations)
     result = _combine(results, [pl.line_id for pl in plans])
     if inputs.line_id_field:
@@ -330,7 +341,8 @@ class _LineRun:
 
 def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LinePlan,
               offsets: np.ndarray, reading: DemReading,
-              progress: ProgressCallback) -> _LineRun:
+              progress: ProgressCallback,
+              earlier_rules: dict[str, DemReading] | None = None) -> _LineRun:
     """Assess the stations of one line (chunks never span lines)."""
     st, side, cond, sec, line = pl.stations, pl.side, pl.cond, pl.sec, pl.line
     # sample and interpret the cross-sections chunk by chunk
@@ -384,7 +396,11 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
     if off_note:
         meta["off_dem"] = off_note
     # every epoch read on the same stations and sections: change, rate, projected year
-    levels = _epoch_levels(inputs, tasks, table, crs, cols["crest_level"], s)
+    levels, lost = _epoch_levels(inputs, tasks, table, crs, cols["crest_level"], s,
+                                 earlier_rules or {})
+    if lost:  # an earlier survey partly unreadable: its change unknown there
+        meta["incomplete"] = " | ".join([meta["incomplete"], *lost] if "incomplete" in meta
+                                        else lost)
     ep = assess_epochs(levels.years, levels.crest, cols["margin"],
                        vertical_accuracy=_survey_sigma(table, s), rate_z=s.rate_z)
     for k, v in ep.columns().items():
@@ -448,9 +464,15 @@ def _check_epochs(inputs: RunInputs, dem: DemInfo) -> None:
 
 
 def _epoch_levels(inputs: RunInputs, tasks: list[_Chunk], table: pd.DataFrame, crs: CRS,
-                  crest: np.ndarray, s: Settings) -> EpochLevels:
-    """Crest level per epoch: earlier terrain models read like the latest, results matched."""
-    columns = []
+                  crest: np.ndarray, s: Settings,
+                  rules: dict[str, DemReading]) -> tuple[EpochLevels, list[str]]:
+    """Crest level per epoch: earlier terrain models read like the latest, results matched.
+
+    A part of an earlier terrain model that cannot be read is contained like in
+    the latest (its stations have no level of that survey); the second value
+    names each such part for the run's ``incomplete`` entry.
+    """
+    columns, lost = [], []
     xy = table[["x", "y"]].to_numpy(float)
     for e in inputs.earlier:
         if e.kind == "result":
@@ -458,14 +480,22 @@ def _epoch_levels(inputs: RunInputs, tasks: list[_Chunk], table: pd.DataFrame, c
                                              xy=xy))
             continue
         log.info("reading survey %s (%s)", e.label, e.path)
-        again = [dataclasses.replace(t, dem_path=e.path) for t in tasks]
-        columns.append(np.concatenate(list(_map(_crest_chunk, again, s))))
+        again = [dataclasses.replace(t, dem_path=e.path, dem_reading=rules.get(e.path))
+                 for t in tasks]
+        parts = fill_failures(list(_map(Guarded(_crest_chunk, _one_station), again, s)),
+                              source=e.path)
+        columns.append(np.concatenate([p["crest_level"] for p in parts]))
+        errors = np.concatenate([p[READ_ERROR] for p in parts])
+        fails = failure_runs(table["chainage"].to_numpy(float), errors)
+        if fails:
+            lost.append(incomplete_text(fails, what=f"the survey {e.label} ({e.path})",
+                                        effect="those stations have no level of that survey"))
     labels = (*(e.label for e in inputs.earlier), inputs.dem_date or "")
     years = (check_order(labels, [*(e.path for e in inputs.earlier), inputs.dem])
              if inputs.earlier else np.array([np.nan]))
     sources = (*(Path(e.path).name for e in inputs.earlier), Path(inputs.dem).name)
     return EpochLevels(labels=labels, years=years, sources=sources,
-                       crest=np.stack([*columns, crest], axis=1))
+                       crest=np.stack([*columns, crest], axis=1)), lost
 
 
 def _epoch_metadata(levels: EpochLevels, inputs: RunInputs) -> dict[str, Any]:

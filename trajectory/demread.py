@@ -55,6 +55,8 @@ class DemReading:
     fill_values: tuple[float, ...] = ()  # treated as nodata (only where nodata is unset)
     scale: float = 1.0                   # level = raw * scale + offset
     offset: float = 0.0
+    #: tiles of a VRT mosaic that do not exist: (file, (left, bottom, right, top))
+    missing: tuple[tuple[str, tuple[float, float, float, float]], ...] = ()
 
     @property
     def trivial(self) -> bool:
@@ -125,8 +127,9 @@ def reading_rules(path: str, line: LineString, *, margin: float,
             f"{path}: the DEM holds whole numbers ({dtype.name}{span}) and declares no "
             "vertical scale; 1-unit steps cannot measure a crest. If the values are "
             "centimetres pass --dem-z-scale 0.01 (millimetres: 0.001)")
+    missing = missing_tiles(path, within=tuple(line.buffer(margin).bounds))
     if levels.size == 0:
-        return DemReading(fill_values=fills, scale=scale, offset=offset)
+        return DemReading(fill_values=fills, scale=scale, offset=offset, missing=missing)
     lo, hi = float(levels.min()), float(levels.max())
     zlo, zhi = lo * scale + offset, hi * scale + offset
     if zlo < LEVEL_RANGE[0] or zhi > LEVEL_RANGE[1]:
@@ -134,7 +137,60 @@ def reading_rules(path: str, line: LineString, *, margin: float,
             f"{path}: DEM levels near the line run from {zlo:g} to {zhi:g} m, implausible for "
             "terrain in metres; if the values are centimetres pass --dem-z-scale 0.01, or set "
             "the DEM's nodata value if these are fill values")
-    return DemReading(fill_values=fills, scale=scale, offset=offset)
+    return DemReading(fill_values=fills, scale=scale, offset=offset, missing=missing)
+
+
+def missing_tiles(path: str, *, within: tuple[float, float, float, float] | None = None,
+                  ) -> tuple[tuple[str, tuple[float, float, float, float]], ...]:
+    """The source files of a VRT mosaic that are missing or cannot be opened, with their extent.
+
+    GDAL reads such a source as nodata without an error, so the run would not
+    know that part is lost; the extents come from each source's ``DstRect`` and
+    the mosaic's ``GeoTransform`` (GDAL VRT format). Only sources overlapping
+    ``within`` (left, bottom, right, top) are opened to check them.
+    """
+    import xml.etree.ElementTree as ET
+    from pathlib import Path
+
+    vrt = Path(path)
+    if vrt.suffix.lower() != ".vrt" or not vrt.is_file():
+        return ()
+    try:
+        root = ET.parse(vrt).getroot()
+        c, a, _, f, _, e = (float(v) for v in (root.findtext("GeoTransform") or "").split(","))
+    except (ET.ParseError, ValueError):  # not a plain VRT file: GDAL judges it
+        return ()
+    out: dict[str, tuple[float, float, float, float]] = {}
+    for src in root.iter():
+        name, rect = src.find("SourceFilename"), src.find("DstRect")
+        if name is None or rect is None or not (name.text or "").strip():
+            continue
+        text = name.text.strip()
+        tile = vrt.parent / text if name.get("relativeToVRT") == "1" else Path(text)
+        if text.startswith("/vsi"):
+            continue
+        xo, yo, xs, ys = (float(rect.get(k, 0)) for k in ("xOff", "yOff", "xSize", "ySize"))
+        xa, xb, ya, yb = c + xo * a, c + (xo + xs) * a, f + yo * e, f + (yo + ys) * e
+        box = (min(xa, xb), min(ya, yb), max(xa, xb), max(ya, yb))
+        if within is not None and (box[2] < within[0] or box[0] > within[2]
+                                   or box[3] < within[1] or box[1] > within[3]):
+            continue
+        if _opens(tile):
+            continue
+        old = out.get(str(tile))
+        out[str(tile)] = box if old is None else (min(old[0], box[0]), min(old[1], box[1]),
+                                                  max(old[2], box[2]), max(old[3], box[3]))
+    return tuple(out.items())
+
+
+def _opens(tile) -> bool:
+    if not tile.is_file():
+        return False
+    try:
+        with rasterio.open(tile):
+            return True
+    except rasterio.errors.RasterioError:
+        return False
 
 
 def vertical_unit(path: str, band_unit: str | None, crs: object, *,
