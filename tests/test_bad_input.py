@@ -90,7 +90,7 @@ def test_empty_files_are_named_as_empty(small, tmp_path):
         run(_inputs(small, dem=dem))
     csv = tmp_path / "empty.csv"
     csv.write_text("")
-    with pytest.raises(InputError, match=r"empty\.csv"):
+    with pytest.raises(InputFileError, match=r"empty\.csv: the conditions file is empty"):
         run(_inputs(small, conditions=csv))
 
 

@@ -23,7 +23,7 @@ import rasterio
 from pyproj import CRS
 from shapely.geometry import LineString, MultiLineString
 
-from . import CAUTION, __version__, uncertainty
+from . import CAUTION, __version__, diagnosis, uncertainty
 from .chainage import Stations, crossing_sections, make_stations
 from .checks import check_chunk_memory, sections_off_the_line
 from .demread import DemReading, reading_rules, with_rules
@@ -51,6 +51,7 @@ from .faults import (
     incomplete_text,
     off_dem,
     part_size,
+    refuse_missing_tiles,
     report_off_dem,
 )
 from .frequency import Lines, no_lines
@@ -160,6 +161,10 @@ def _dataset(path: str) -> rasterio.io.DatasetReader:
 def _read_chunk(chunk: _Chunk) -> tuple[np.ndarray, ProfileMetrics]:
     """Sample the sections of one chunk and read their profiles."""
     s = chunk.settings
+    # a tile missing from a mosaic reads as nodata without an error: made a read error
+    if chunk.dem_reading is not None:
+        refuse_missing_tiles(chunk.stations, float(np.abs(chunk.offsets).max()),
+                             chunk.dem_reading.missing, chunk.dem_path)
     # GDAL's block cache is bounded per process, so memory does not grow with the line;
     # the reading rules turn DEM values into levels (fill values, vertical unit)
     with rasterio.Env(GDAL_CACHEMAX=int(s.dem_cache * 2**20)):
@@ -173,9 +178,9 @@ def _read_chunk(chunk: _Chunk) -> tuple[np.ndarray, ProfileMetrics]:
     return z, prof
 
 
-def _crest_chunk(chunk: _Chunk) -> np.ndarray:
+def _crest_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
     """The crest levels of one chunk alone (an earlier survey needs nothing more)."""
-    return _read_chunk(chunk)[1].crest_level
+    return {"crest_level": _read_chunk(chunk)[1].crest_level}
 
 
 def _assess_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
@@ -289,6 +294,10 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     all_lines = lines[0].line if len(lines) == 1 else MultiLineString([c.line for c in lines])
     # how DEM values become levels (fill values, vertical unit), from a window near the line
     reading = reading_rules(dem.path, all_lines, margin=s.half_width, z_scale=s.dem_z_scale)
+    # each earlier terrain model read by its own rules (its unit, fill values, lost tiles)
+    earlier_rules = {e.path: reading_rules(e.path, all_lines, margin=s.half_width,
+                                           z_scale=s.dem_z_scale)
+                     for e in inputs.earlier if e.kind == "dem"}
     # frequency lines by section (optional), then the section conditions (per line with a
     # line_id column), the design level read off a line at the standard where it is empty
     freq = read_frequency(s.frequency) if s.frequency else None
@@ -296,9 +305,10 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
         conds = read_line_conditions(inputs.conditions, [c.line_id for c in lines],
                                      frequency=freq, extrapolate=s.extrapolate_frequency)
     else:
+        extent = (s.start_chainage, s.start_chainage + lines[0].line.length)
         conds = {"": read_conditions(inputs.conditions, layer=inputs.conditions_layer,
                                      target_crs=dem.crs, frequency=freq,
-                                     extrapolate=s.extrapolate_frequency)}
+                                     extrapolate=s.extrapolate_frequency, extent=extent)}
     step = s.sample_step or dem.cell
     offsets = section_offsets(s.half_width, step)
     accuracy_from_settings(s)  # refuse a contradictory accuracy setting before any work
@@ -319,12 +329,35 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
         def line_progress(d: int, n: int, base: int = done) -> None:
             if progress is not None:
                 progress(base + d, total)
-        results.append(_run_line(inputs, s, dem, crs, pl, offsets, reading, line_progress))
+        results.append(_run_line(inputs, s, dem, crs, pl, offsets, reading, line_progress,
+                                 earlier_rules))
         done += len(pl.stations)
     result = _combine(results, [pl.line_id for pl in plans])
     if inputs.line_id_field:
         result.metadata["line_count"] = len(lines)
+    _judge_run(result, inputs, s, dem)
     return result
+
+
+def _judge_run(result: Result, inputs: RunInputs, s: Settings, dem: DemInfo) -> None:
+    """Say why nothing was assessed (an incomplete run), and what looks implausible."""
+    st = result.stations
+    why = diagnosis.nothing_assessed_text(st, result.profiles, cell=dem.cell,
+                                          half_width=s.half_width, max_nodata=s.max_nodata,
+                                          bounds=dem.bounds, source=inputs.dem)
+    if why and "incomplete" not in result.metadata:  # said once, by the front end
+        result.metadata["incomplete"] = why
+    coarse = diagnosis.coarse_cell_text(dem.cell, inputs.dem)
+    notes = [coarse] if coarse and not why else []
+    levels = diagnosis.level_warnings(st)
+    notes += levels
+    side = None if levels else diagnosis.water_side_warning(  # sides judged on sane levels
+        st, result.profiles, result.offsets, crest_search=s.crest_search)
+    notes += [side] if side else []
+    for note in notes:
+        log.warning(note)
+    if notes:
+        result.metadata["plausibility"] = " | ".join(notes)
 
 
 @dataclass(frozen=True)
@@ -339,7 +372,8 @@ class _LineRun:
 
 def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LinePlan,
               offsets: np.ndarray, reading: DemReading,
-              progress: ProgressCallback) -> _LineRun:
+              progress: ProgressCallback,
+              earlier_rules: dict[str, DemReading] | None = None) -> _LineRun:
     """Assess the stations of one line (chunks never span lines)."""
     st, side, cond, sec, line = pl.stations, pl.side, pl.cond, pl.sec, pl.line
     # sample and interpret the cross-sections chunk by chunk
@@ -409,7 +443,11 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
     if off_note:
         meta["off_dem"] = off_note
     # every epoch read on the same stations and sections: change, rate, projected year
-    levels = _epoch_levels(inputs, tasks, table, crs, ground_crest, s)
+    levels, lost = _epoch_levels(inputs, tasks, table, crs, ground_crest, s,
+                                 earlier_rules or {})
+    if lost:  # an earlier survey partly unreadable: its change unknown there
+        meta["incomplete"] = " | ".join([meta["incomplete"], *lost] if "incomplete" in meta
+                                        else lost)
     ep = assess_epochs(levels.years, levels.crest, cols["margin"],
                        vertical_accuracy=_survey_sigma(table, s), rate_z=s.rate_z)
     for k, v in ep.columns().items():
@@ -520,9 +558,15 @@ def _check_epochs(inputs: RunInputs, dem: DemInfo) -> None:
 
 
 def _epoch_levels(inputs: RunInputs, tasks: list[_Chunk], table: pd.DataFrame, crs: CRS,
-                  crest: np.ndarray, s: Settings) -> EpochLevels:
-    """Crest level per epoch: earlier terrain models read like the latest, results matched."""
-    columns = []
+                  crest: np.ndarray, s: Settings,
+                  rules: dict[str, DemReading]) -> tuple[EpochLevels, list[str]]:
+    """Crest level per epoch: earlier terrain models read like the latest, results matched.
+
+    A part of an earlier terrain model that cannot be read is contained like in
+    the latest (its stations have no level of that survey); the second value
+    names each such part for the run's ``incomplete`` entry.
+    """
+    columns, lost = [], []
     xy = table[["x", "y"]].to_numpy(float)
     for e in inputs.earlier:
         if e.kind == "result":
@@ -530,14 +574,22 @@ def _epoch_levels(inputs: RunInputs, tasks: list[_Chunk], table: pd.DataFrame, c
                                              xy=xy))
             continue
         log.info("reading survey %s (%s)", e.label, e.path)
-        again = [dataclasses.replace(t, dem_path=e.path) for t in tasks]
-        columns.append(np.concatenate(list(_map(_crest_chunk, again, s))))
+        again = [dataclasses.replace(t, dem_path=e.path, dem_reading=rules.get(e.path))
+                 for t in tasks]
+        parts = fill_failures(list(_map(Guarded(_crest_chunk, _one_station), again, s)),
+                              source=e.path)
+        columns.append(np.concatenate([p["crest_level"] for p in parts]))
+        errors = np.concatenate([p[READ_ERROR] for p in parts])
+        fails = failure_runs(table["chainage"].to_numpy(float), errors)
+        if fails:
+            lost.append(incomplete_text(fails, what=f"the survey {e.label} ({e.path})",
+                                        effect="those stations have no level of that survey"))
     labels = (*(e.label for e in inputs.earlier), inputs.dem_date or "")
     years = (check_order(labels, [*(e.path for e in inputs.earlier), inputs.dem])
              if inputs.earlier else np.array([np.nan]))
     sources = (*(Path(e.path).name for e in inputs.earlier), Path(inputs.dem).name)
     return EpochLevels(labels=labels, years=years, sources=sources,
-                       crest=np.stack([*columns, crest], axis=1))
+                       crest=np.stack([*columns, crest], axis=1)), lost
 
 
 def _epoch_metadata(levels: EpochLevels, inputs: RunInputs) -> dict[str, Any]:
@@ -556,6 +608,10 @@ def _plan_line(c: Centreline, cond: Conditions, s: Settings, *, source: str) -> 
     st = make_stations(c.line, spacing=s.spacing, start_chainage=s.start_chainage,
                        reverse=s.reverse, smooth_length=s.smooth_length, chainages=listed)
     where = f"{source} (line {c.line_id!r})" if c.line_id else source
+    short = diagnosis.short_line_text(c.line.length, s.spacing, len(st),
+                                      f"line {c.line_id!r}" if c.line_id else "the centreline")
+    if short and not listed:
+        log.warning(short)
     # the section of each station: by chainage range, or by polygon (spatial join)
     sec, cond = assign_sections(cond, st.chainage, st.x, st.y, source=where)
     if "from_chainage" in cond.table and cond.table["from_chainage"].notna().all():
@@ -666,26 +722,33 @@ def _source_crs(path: str, layer: str | None) -> str:
 def assess(inputs: RunInputs, out: str | Path, settings: Settings | None = None, *,
            overwrite: bool = False, table: str | Path | None = None,
            progress: ProgressCallback | None = None,
-           report: str | Path | None = None) -> Result:
+           report: str | Path | None = None, read: dict[str, str] | None = None) -> Result:
     """Assess the levee line(s); write the GeoPackage, the deficit tables (CSV, XLSX), a report.
 
-    The files are written under temporary names and renamed into place together
-    once all are complete, so the GeoPackage and the tables always come from the
-    same run. On a run with several workers the GeoPackage is written side by
-    side with the tables.
+    The files (the report too) are written under temporary names and switched into
+    place together once all are complete, so they always come from the same run.
+    No output may be an input or another output; ``read`` names further files the
+    run read (e.g. ``{"--config": "run.toml"}``) that must not be replaced either.
+    On a run with several workers the GeoPackage is written side by side with the
+    tables.
     """
-    from .outputs import refuse_overwrite, write_deficit_table, write_geopackage
-    from .outputs.atomic import staged
+    from .outputs import write_deficit_table, write_geopackage
+    from .outputs.atomic import forget_switched, refuse_overwrite, staged
+    from .outputs.report import write_report
     from .outputs.style import sld_paths, write_slds
     from .outputs.table import stretch_table_path, write_stretch_table
+    from .outputs.targets import check_targets
     from .outputs.workbook import write_result_workbook
 
     s = settings or Settings()
-    out = Path(out)
-    table = Path(table) if table else out.with_suffix(".csv")
+    targets = output_targets(out, table, report)
+    check_targets(targets, input_files(inputs, s, read))
+    out, table = targets["--out"], targets["--table"]
     slds = sld_paths(out)
-    files = [out, table, stretch_table_path(table), table.with_suffix(".xlsx"), *slds.values()]
-    for p in (*files, *([Path(report)] if report else [])):
+    report_path = targets.get("--report")
+    files = list(targets.values())
+    forget_switched(files)
+    for p in files:
         refuse_overwrite(p, overwrite=overwrite)
     result = run(inputs, s, progress=progress)
     parallel = s.workers != 1 and not s.scheduler and (os.cpu_count() or 1) > 1
@@ -702,11 +765,64 @@ def assess(inputs: RunInputs, out: str | Path, settings: Settings | None = None,
             write_slds({layer: tmp[p] for layer, p in slds.items()}, overwrite=True)
 
         side_by_side([geopackage, tables], parallel=parallel)
-    if report:
-        from .outputs.report import write_report
-        write_report(out, report, overwrite=overwrite)
-    log.info("wrote %s, %s (+ stretches, .xlsx)%s", out, table, f" and {report}" if report else "")
+        if report_path is not None:  # part of the set: built from the staged GeoPackage
+            write_report(tmp[out], tmp[report_path], overwrite=True, name=out.name)
+    log.info("wrote %s, %s (+ stretches, .xlsx)%s", out, table,
+             f" and {report_path}" if report_path else "")
     return result
+
+
+def output_targets(out: str | Path, table: str | Path | None = None,
+                   report: str | Path | None = None) -> dict[str, Path]:
+    """Every file an assessment writes, by role; refuse names that cannot be right.
+
+    Raises
+    ------
+    OutputError
+        ``out`` empty or not a ``.gpkg``, ``table`` not a ``.csv``.
+    """
+    from .errors import OutputError
+    from .outputs.style import sld_paths
+    from .outputs.table import stretch_table_path
+
+    if not str(out).strip():
+        raise OutputError("--out is empty; give the result GeoPackage's file name, "
+                          "e.g. --out results.gpkg")
+    o = Path(out)
+    if o.suffix.lower() != ".gpkg":
+        raise OutputError(f"{o}: --out is the result GeoPackage; give a name ending in .gpkg "
+                          "(the deficit table goes beside it, or where --table says)")
+    t = Path(table) if table and str(table).strip() else o.with_suffix(".csv")
+    if t.suffix.lower() != ".csv":
+        raise OutputError(f"{t}: --table is the deficit table (CSV); give a name ending in "
+                          ".csv (the workbook .xlsx goes beside it)")
+    targets = {"--out": o, "--table": t, "the stretch table": stretch_table_path(t),
+               "the workbook": t.with_suffix(".xlsx")}
+    targets.update({f"the {layer} style file": p for layer, p in sld_paths(o).items()})
+    if report and str(report).strip():
+        targets["--report"] = Path(report)
+    return targets
+
+
+def input_files(inputs: RunInputs, s: Settings,
+                read: dict[str, str] | None = None) -> dict[str, str]:
+    """Every file a run reads, by role (a mosaic's tiles too), which no output may replace."""
+    files = {"--centreline": inputs.centreline, "--dem": inputs.dem,
+             "--conditions": inputs.conditions}
+    for e in inputs.earlier:
+        files[f"the earlier survey {e.label}"] = e.path
+    if s.stations_file:
+        files["stations_file"] = s.stations_file
+    files.update(read or {})
+    for role, p in list(files.items()):
+        if str(p).lower().endswith(".vrt") and Path(p).is_file():
+            try:
+                with rasterio.open(p) as ds:
+                    parts = ds.files[1:]
+            except rasterio.errors.RasterioError:  # judged when the run opens it
+                parts = []
+            files.update({f"a tile of {role}": q for q in parts})
+    return files
 
 
 def summary(result: Result) -> dict[str, float]:

@@ -143,7 +143,8 @@ def assess(centreline: str, dem: tuple[str, ...], compare: tuple[str, ...], cond
                            earlier=earlier, conditions_layer=conditions_layer,
                            line_id_field=line_id_field)
         result = run_assess(inputs, out, settings, overwrite=overwrite, table=table,
-                            progress=bar, report=report_path)
+                            progress=bar, report=report_path,
+                            read={"--config": config} if config else None)
     except FileOverwriteError as exc:
         bar.close()
         _fail(exc, debug, EXIT_OVERWRITE)
@@ -152,8 +153,7 @@ def assess(centreline: str, dem: tuple[str, ...], compare: tuple[str, ...], cond
         _fail(exc, debug, EXIT_INPUT)
     except KeyboardInterrupt as exc:
         bar.close()
-        _fail(exc, debug, EXIT_INTERRUPTED,
-              "interrupted; no output was replaced (earlier results are intact)")
+        _fail(exc, debug, EXIT_INTERRUPTED, _interrupted_text(out))
     except Exception as exc:  # a bug: one line unless --debug
         bar.close()
         _fail(exc, debug, EXIT_INTERNAL,
@@ -176,9 +176,7 @@ def assess(centreline: str, dem: tuple[str, ...], compare: tuple[str, ...], cond
             log.info(line)
     log.info(CAUTION)
     if result.metadata.get("incomplete"):
-        click.echo("Incomplete: the DEM could not be read for "
-                   f"{result.metadata['incomplete']}; those stations are no_data. "
-                   "Repair the DEM and run again", err=True)
+        click.echo(f"Incomplete: {result.metadata['incomplete']}", err=True)
         sys.exit(EXIT_INCOMPLETE)
 
 
@@ -203,6 +201,16 @@ def report(results: str, out: str | None, overwrite: bool, quiet: bool, debug: b
     except TrajectoryError as exc:
         _fail(exc, debug, EXIT_INPUT)
     log.info("wrote %s", target)
+
+
+def _interrupted_text(out: str) -> str:
+    """What an interrupt left behind, truthfully (the switch of the set is never cut)."""
+    from .outputs.atomic import was_switched
+
+    if was_switched(out):
+        return (f"interrupted after the outputs were written; {out} and the files beside it "
+                "are complete and from this run")
+    return "interrupted; no output was replaced (earlier results are intact)"
 
 
 def _fail(exc: BaseException, debug: bool, code: int, text: str | None = None) -> None:

@@ -23,7 +23,7 @@ import shapely
 from pyproj import CRS
 
 from . import hydraulics as hy
-from .checks import condition_plausibility
+from .checks import check_file, condition_plausibility
 from .errors import ConditionsError, InputError, InputFileError
 from .frequency import Lines
 from .frequency_conditions import LINE_COLUMNS, LINE_RULES, design_from_lines, section_lines
@@ -118,7 +118,8 @@ class Conditions:
 # ------------------------------------------------------------------ reading
 def read_conditions(path: str | Path, *, layer: str | None = None,
                     target_crs: CRS | None = None, frequency: FrequencyTable | None = None,
-                    extrapolate: bool = False) -> Conditions:
+                    extrapolate: bool = False,
+                    extent: tuple[float, float] | None = None) -> Conditions:
     """Read and validate the section conditions; report every bad row at once.
 
     Parameters
@@ -133,23 +134,22 @@ def read_conditions(path: str | Path, *, layer: str | None = None,
     frequency : FrequencyTable, optional
         Frequency lines by section (``--frequency``); ``extrapolate`` allows one
         decade beyond them, flagged.
+    extent : (float, float), optional
+        First and last chainage of the line: a gap between sections lying wholly
+        beyond them is not a finding (those sections are not used).
     """
-    p = Path(path)
-    if not p.exists():
-        raise InputFileError(f"{p}: conditions file not found")
+    p = check_file(path, role="conditions", option="--conditions")
     polygons = None
     if p.suffix.lower() in _TEXT_SUFFIXES:
-        try:
-            raw = pd.read_csv(p, dtype=str, skipinitialspace=True, comment="#")
-        except (pd.errors.EmptyDataError, pd.errors.ParserError, UnicodeDecodeError) as exc:
-            raise InputError(f"{p}: cannot read the conditions table ({exc})") from exc
+        raw = _read_text_table(p)
         row_base = 2  # line number in the file: header is line 1
     else:
         raw, polygons = _read_vector(p, layer, target_crs)
         row_base = 1  # feature number, first is 1
     raw.columns = [str(c).strip().lower() for c in raw.columns]
     table, findings = validate_conditions(raw, spatial=polygons is not None, row_base=row_base,
-                                          frequency=frequency, extrapolate=extrapolate)
+                                          frequency=frequency, extrapolate=extrapolate,
+                                          extent=extent)
     if polygons is not None and not findings:
         findings += _polygon_findings(polygons, table["section_id"].to_numpy(object), row_base)
     if findings:
@@ -158,6 +158,57 @@ def read_conditions(path: str | Path, *, layer: str | None = None,
         polygons = polygons[table["_row"].to_numpy(int) - row_base]
     return Conditions(table=table, polygons=polygons, source=str(p),
                       lines=section_lines(table, frequency, extrapolate=extrapolate))
+
+
+#: separators tried on the header line (comma; semicolon of European spreadsheets; tab)
+_SEPARATORS = (",", ";", "\t")
+_SEP_NAMES = {",": "comma", ";": "semicolon", "\t": "tab"}
+#: encodings tried in turn (UTF-8 with or without BOM, then Windows-1252, then Latin-1)
+_ENCODINGS = ("utf-8-sig", "cp1252", "latin-1")
+
+
+def _read_text_table(p: Path) -> pd.DataFrame:
+    """A CSV's cells as text: separator from the header line, decimal commas made points."""
+    import io
+
+    data = p.read_bytes()
+    for enc in _ENCODINGS:  # latin-1 decodes every byte, so the loop always ends decoded
+        try:
+            text = data.decode(enc)
+            break
+        except UnicodeDecodeError:
+            continue
+    if enc != "utf-8-sig":
+        log.info("%s: not UTF-8; read as %s", p, enc)
+    lines = [ln for ln in text.splitlines() if ln.strip() and not ln.lstrip().startswith("#")]
+    if not lines:
+        raise InputError(f"{p}: the conditions table holds no header line; give a CSV whose "
+                         "first line names the columns (section_id, from_chainage, ...)")
+    sep = max(_SEPARATORS, key=lines[0].count)
+    try:
+        raw = pd.read_csv(io.StringIO(text), sep=sep if lines[0].count(sep) else ",", dtype=str,
+                          skipinitialspace=True, comment="#")
+    except (pd.errors.EmptyDataError, pd.errors.ParserError) as exc:
+        raise InputError(f"{p}: cannot read the conditions table as {_SEP_NAMES[sep]}-"
+                         f"separated ({exc}); give every row the header's number of fields"
+                         ) from exc
+    if sep != ",":  # a decimal comma is only possible where the comma does not separate
+        raw = raw.apply(lambda col: col.str.replace(
+            r"^\s*([+-]?\d*),(\d+(?:[eE][+-]?\d+)?)\s*$", r"\1.\2", regex=True))
+        log.info("%s: %s-separated; decimal commas read as points", p, _SEP_NAMES[sep])
+    return raw
+
+
+def _one_edit(a: str, b: str) -> bool:
+    """True when ``a`` and ``b`` differ by one letter inserted, dropped, changed or swapped."""
+    if a == b or abs(len(a) - len(b)) > 1:
+        return False
+    if len(a) == len(b):
+        diff = [i for i in range(len(a)) if a[i] != b[i]]
+        return len(diff) == 1 or (len(diff) == 2 and diff[1] == diff[0] + 1
+                                  and a[diff[0]] == b[diff[1]] and a[diff[1]] == b[diff[0]])
+    short, long_ = sorted((a, b), key=len)
+    return any(long_[:i] + long_[i + 1:] == short for i in range(len(long_)))
 
 
 def _read_vector(p: Path, layer: str | None,
@@ -203,7 +254,9 @@ def _as_text(df: pd.DataFrame) -> pd.DataFrame:
 # --------------------------------------------------------------- validation
 def validate_conditions(raw: pd.DataFrame, *, spatial: bool = False, row_base: int = 2,
                         frequency: FrequencyTable | None = None,
-                        extrapolate: bool = False) -> tuple[pd.DataFrame, list[str]]:
+                        extrapolate: bool = False,
+                        extent: tuple[float, float] | None = None,
+                        ) -> tuple[pd.DataFrame, list[str]]:
     """Check a conditions table; return the clean table and every finding.
 
     Parameters
@@ -218,15 +271,26 @@ def validate_conditions(raw: pd.DataFrame, *, spatial: bool = False, row_base: i
     frequency, extrapolate
         Frequency lines by section and whether one decade of extrapolation is
         allowed (:func:`trajectory.frequency_conditions.design_from_lines`).
+    extent : (float, float), optional
+        The line's first and last chainage; gaps wholly beyond them are no finding.
     """
     findings: list[str] = []
     needed = [c for c in CONDITION_COLUMNS
               if not (spatial and c in ("from_chainage", "to_chainage"))]
-    missing = [c for c in needed if c not in raw.columns]
-    if missing:
-        return raw, [f"missing column(s): {', '.join(missing)}"]
     known = set(CONDITION_COLUMNS) | set(OPTIONAL_COLUMNS)
     unknown = [c for c in raw.columns if c not in known]
+    # a column one letter off a known one is a typo, never silently ignored
+    typos = {c: k for c in unknown for k in sorted(known) if _one_edit(c, k)}
+    missing = [c for c in needed if c not in raw.columns]
+    if missing:
+        hints = [f"column {c!r} looks like {k!r}" for c, k in typos.items()]
+        return raw, [f"missing column(s): {', '.join(missing)}"
+                     + (f" ({'; '.join(hints)}; rename it)" if hints else
+                        "; add them to the header line (check the separator too)")]
+    for c, k in typos.items():
+        findings.append(f"column {c!r} is not known; did you mean {k!r}? Rename the column "
+                        "(its values would be ignored)")
+    unknown = [c for c in unknown if c not in typos]
     if unknown:
         log.warning("conditions: ignoring unknown column(s) %s", ", ".join(unknown))
     if raw.empty:
@@ -343,7 +407,9 @@ def validate_conditions(raw: pd.DataFrame, *, spatial: bool = False, row_base: i
     lo_c, hi_c = out["from_chainage"].to_numpy(), out["to_chainage"].to_numpy()
     for k in range(1, len(out)):
         a, b = out.iloc[k - 1], out.iloc[k]
-        if lo_c[k] > hi_c[k - 1] + 1e-6:
+        beyond = extent is not None and (lo_c[k] >= extent[1] - 1e-6
+                                         or hi_c[k - 1] <= extent[0] + 1e-6)
+        if lo_c[k] > hi_c[k - 1] + 1e-6 and not beyond:
             findings.append(f"gap in chainage between section {a.section_id!r} (row {a._row}, "
                             f"to {hi_c[k - 1]:g} m) and {b.section_id!r} (row {b._row}, from "
                             f"{lo_c[k]:g} m)")

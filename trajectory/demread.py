@@ -35,6 +35,17 @@ FILL_MAGNITUDE = 1e30
 LEVEL_RANGE = (-500.0, 9000.0)
 #: side (cells) of the decimated probe read
 PROBE_CELLS = 1024
+#: metres per vertical unit, by the names band units are written with (international
+#: foot 0.3048 m exactly; US survey foot 1200/3937 m, NIST SP 811 / EPSG 9003)
+UNIT_METRES: dict[str, float] = {
+    **dict.fromkeys(("m", "metre", "meter", "metres", "meters", "metro"), 1.0),
+    **dict.fromkeys(("ft", "foot", "feet", "international foot", "ft (international)",
+                     "intl foot"), 0.3048),
+    **dict.fromkeys(("us survey foot", "us survey feet", "us-ft", "ftus", "us_survey_foot",
+                     "survey foot", "us ft", "foot_us", "ft_us"), 1200.0 / 3937.0),
+    **dict.fromkeys(("cm", "centimetre", "centimeter", "centimetres", "centimeters"), 0.01),
+    **dict.fromkeys(("mm", "millimetre", "millimeter", "millimetres", "millimeters"), 0.001),
+}
 
 
 @dataclass(frozen=True)
@@ -44,6 +55,8 @@ class DemReading:
     fill_values: tuple[float, ...] = ()  # treated as nodata (only where nodata is unset)
     scale: float = 1.0                   # level = raw * scale + offset
     offset: float = 0.0
+    #: tiles of a VRT mosaic that do not exist: (file, (left, bottom, right, top))
+    missing: tuple[tuple[str, tuple[float, float, float, float]], ...] = ()
 
     @property
     def trivial(self) -> bool:
@@ -72,6 +85,7 @@ def reading_rules(path: str, line: LineString, *, margin: float,
         Integer levels without a declared scale, or levels implausible in metres.
     """
     with rasterio.open(path) as ds:
+        unit, unit_source = vertical_unit(path, ds.units[0], ds.crs, z_scale=z_scale)
         dtype = np.dtype(ds.dtypes[0])
         nodata = ds.nodata
         f_scale = float(ds.scales[0] or 1.0)
@@ -82,11 +96,16 @@ def reading_rules(path: str, line: LineString, *, margin: float,
             # a damaged part is reported chunk by chunk later; judge by the data type only
             log.debug("probe read of %s failed: %s", path, exc)
             raw = np.ma.masked_all((1, 1))
-    declared = (f_scale, f_offset) != (1.0, 0.0)
+    # a declared scale, or a unit of a centimetre or finer, makes whole numbers usable
+    declared = (f_scale, f_offset) != (1.0, 0.0) or unit <= 0.01
     if z_scale > 0:
         scale, offset = float(z_scale), 0.0
-    else:
-        scale, offset = (f_scale, f_offset)
+    else:  # the band's scale and offset give values in its unit; the unit gives metres
+        scale, offset = f_scale * unit, f_offset * unit
+        if unit != 1.0:
+            log.warning("%s: DEM levels are in %s; converted to metres (x %.10g). The "
+                        "conditions' levels must be metres in the same datum", path,
+                        unit_source, unit)
     fills: tuple[float, ...] = ()
     if nodata is None:
         fills = COMMON_FILL_VALUES
@@ -108,8 +127,9 @@ def reading_rules(path: str, line: LineString, *, margin: float,
             f"{path}: the DEM holds whole numbers ({dtype.name}{span}) and declares no "
             "vertical scale; 1-unit steps cannot measure a crest. If the values are "
             "centimetres pass --dem-z-scale 0.01 (millimetres: 0.001)")
+    missing = missing_tiles(path, within=tuple(line.buffer(margin).bounds))
     if levels.size == 0:
-        return DemReading(fill_values=fills, scale=scale, offset=offset)
+        return DemReading(fill_values=fills, scale=scale, offset=offset, missing=missing)
     lo, hi = float(levels.min()), float(levels.max())
     zlo, zhi = lo * scale + offset, hi * scale + offset
     if zlo < LEVEL_RANGE[0] or zhi > LEVEL_RANGE[1]:
@@ -117,7 +137,114 @@ def reading_rules(path: str, line: LineString, *, margin: float,
             f"{path}: DEM levels near the line run from {zlo:g} to {zhi:g} m, implausible for "
             "terrain in metres; if the values are centimetres pass --dem-z-scale 0.01, or set "
             "the DEM's nodata value if these are fill values")
-    return DemReading(fill_values=fills, scale=scale, offset=offset)
+    return DemReading(fill_values=fills, scale=scale, offset=offset, missing=missing)
+
+
+def missing_tiles(path: str, *, within: tuple[float, float, float, float] | None = None,
+                  ) -> tuple[tuple[str, tuple[float, float, float, float]], ...]:
+    """The source files of a VRT mosaic that are missing or cannot be opened, with their extent.
+
+    GDAL reads such a source as nodata without an error, so the run would not
+    know that part is lost; the extents come from each source's ``DstRect`` and
+    the mosaic's ``GeoTransform`` (GDAL VRT format). Only sources overlapping
+    ``within`` (left, bottom, right, top) are opened to check them.
+    """
+    import xml.etree.ElementTree as ET
+    from pathlib import Path
+
+    vrt = Path(path)
+    if vrt.suffix.lower() != ".vrt" or not vrt.is_file():
+        return ()
+    try:
+        root = ET.parse(vrt).getroot()
+        c, a, _, f, _, e = (float(v) for v in (root.findtext("GeoTransform") or "").split(","))
+    except (ET.ParseError, ValueError):  # not a plain VRT file: GDAL judges it
+        return ()
+    out: dict[str, tuple[float, float, float, float]] = {}
+    for src in root.iter():
+        name, rect = src.find("SourceFilename"), src.find("DstRect")
+        if name is None or rect is None or not (name.text or "").strip():
+            continue
+        text = name.text.strip()
+        tile = vrt.parent / text if name.get("relativeToVRT") == "1" else Path(text)
+        if text.startswith("/vsi"):
+            continue
+        xo, yo, xs, ys = (float(rect.get(k, 0)) for k in ("xOff", "yOff", "xSize", "ySize"))
+        xa, xb, ya, yb = c + xo * a, c + (xo + xs) * a, f + yo * e, f + (yo + ys) * e
+        box = (min(xa, xb), min(ya, yb), max(xa, xb), max(ya, yb))
+        if within is not None and (box[2] < within[0] or box[0] > within[2]
+                                   or box[3] < within[1] or box[1] > within[3]):
+            continue
+        if _opens(tile):
+            continue
+        old = out.get(str(tile))
+        out[str(tile)] = box if old is None else (min(old[0], box[0]), min(old[1], box[1]),
+                                                  max(old[2], box[2]), max(old[3], box[3]))
+    return tuple(out.items())
+
+
+def _opens(tile) -> bool:
+    if not tile.is_file():
+        return False
+    try:
+        with rasterio.open(tile):
+            return True
+    except rasterio.errors.RasterioError:
+        return False
+
+
+def vertical_unit(path: str, band_unit: str | None, crs: object, *,
+                  z_scale: float = 0.0) -> tuple[float, str]:
+    """Metres per DEM value unit, from the band's unit and the CRS's vertical axis.
+
+    Returns the factor and where it came from (for the log). ``z_scale`` > 0 (the
+    user's ``--dem-z-scale``) wins over both.
+
+    Raises
+    ------
+    InputError
+        A band unit not known, or a band unit and a vertical CRS that disagree.
+    """
+    if z_scale > 0:
+        return 1.0, "the unit given by --dem-z-scale"
+    from_band = None
+    name = (band_unit or "").strip()
+    if name:
+        from_band = UNIT_METRES.get(name.lower())
+        if from_band is None:
+            raise InputError(
+                f"{path}: the DEM's band unit {name!r} is not one trajectory knows (metres, "
+                "feet, US survey feet, centimetres, millimetres); set the unit in the file "
+                "(gdal_edit.py -units m) or give --dem-z-scale (metres per DEM unit)")
+    from_crs, vname = _crs_vertical_unit(crs)
+    if from_band is not None and from_crs is not None and not np.isclose(from_band, from_crs,
+                                                                          rtol=1e-6):
+        raise InputError(
+            f"{path}: the DEM's band unit {name!r} and its vertical CRS ({vname}) disagree; "
+            "correct the one that is wrong in the file, or give --dem-z-scale (metres per "
+            "DEM unit)")
+    if from_crs is not None:
+        return from_crs, f"the vertical CRS's unit ({vname})"
+    if from_band is not None:
+        return from_band, f"the band unit {name!r}"
+    return 1.0, "metres (no unit declared)"
+
+
+def _crs_vertical_unit(crs: object) -> tuple[float | None, str]:
+    """Metres per unit of the vertical axis of a compound CRS (None: no vertical axis)."""
+    if crs is None:
+        return None, ""
+    from pyproj import CRS
+
+    try:
+        c = CRS.from_user_input(crs.to_wkt() if hasattr(crs, "to_wkt") else crs)
+    except Exception:  # an unreadable CRS is refused elsewhere (open_dem)
+        return None, ""
+    for sub in c.sub_crs_list or []:
+        if sub.is_vertical and sub.axis_info:
+            ax = sub.axis_info[0]
+            return float(ax.unit_conversion_factor), f"{sub.name}, {ax.unit_name}"
+    return None, ""
 
 
 def _is_fill(v: np.ndarray, fills: tuple[float, ...]) -> np.ndarray:

@@ -40,7 +40,11 @@ def crest_from_result(epoch: Epoch, *, crs: CRS, chainage: np.ndarray,
     if "stations" not in layers:
         raise EpochError(f"{p}: no 'stations' layer; give a result GeoPackage written by "
                          "trajectory assess")
-    old = pyogrio.read_dataframe(p, layer="stations", columns=["chainage", "crest_level"])
+    try:
+        old = pyogrio.read_dataframe(p, layer="stations", columns=["chainage", "crest_level"])
+    except Exception as exc:  # a truncated or damaged file: pyogrio raises several kinds
+        raise InputFileError(f"{p}: the earlier result cannot be read ({exc}); give a complete "
+                             "result GeoPackage or leave out this --compare") from exc
     missing = [c for c in ("chainage", "crest_level") if c not in old.columns]
     if missing:
         raise EpochError(f"{p}: the stations layer lacks {', '.join(missing)}")

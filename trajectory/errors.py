@@ -38,6 +38,10 @@ class FileOverwriteError(TrajectoryError, FileExistsError):
     """The output exists and overwriting was not asked for."""
 
 
+class OutputError(TrajectoryError, OSError):
+    """An output cannot be written where asked (a folder, read-only, disk full, an input)."""
+
+
 # --- cancellation (issue 12: GIS front end)
 class RunCancelled(TrajectoryError):
     """The user cancelled the run; raised from a progress callback, nothing is written."""

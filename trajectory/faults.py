@@ -97,7 +97,25 @@ def part_size(part: dict[str, np.ndarray] | ChunkFailure) -> int:
     """Number of stations of a chunk's result or failure."""
     if isinstance(part, ChunkFailure):
         return part.stations
-    return int(part["margin"].size)
+    return int(len(next(iter(part.values()))))
+
+
+def refuse_missing_tiles(stations: Any, half_width: float, missing: tuple, mosaic: str) -> None:
+    """Raise an OSError naming the tile when a station's section touches a missing tile.
+
+    ``missing`` is :attr:`trajectory.demread.DemReading.missing`; raised as a read
+    error, the failure is contained like a corrupt tile (:class:`Guarded`).
+    """
+    if not missing:
+        return
+    xs = np.stack([stations.x - half_width * stations.nx, stations.x + half_width * stations.nx])
+    ys = np.stack([stations.y - half_width * stations.ny, stations.y + half_width * stations.ny])
+    for name, (left, bottom, right, top) in missing:
+        hit = ((xs.max(0) >= left) & (xs.min(0) <= right)
+               & (ys.max(0) >= bottom) & (ys.min(0) <= top))
+        if hit.any():
+            raise OSError(f"{name}: this tile of the mosaic {mosaic} is missing or cannot be "
+                          "opened")
 
 
 def _empty_like(a: np.ndarray, n: int) -> np.ndarray:
@@ -213,6 +231,8 @@ def report_off_dem(chainage: np.ndarray, mask: np.ndarray) -> str | None:
     return msg
 
 
-def incomplete_text(failures: list[ChunkFailure]) -> str:
-    """One line naming every failed chainage range (the run metadata's `incomplete`)."""
-    return " | ".join(f.describe() for f in failures)
+def incomplete_text(failures: list[ChunkFailure], *, what: str = "the DEM",
+                    effect: str = "those stations are no_data") -> str:
+    """One line naming every failed chainage range and what to do (metadata `incomplete`)."""
+    ranges = " | ".join(f.describe() for f in failures)
+    return f"{what} could not be read for {ranges}; {effect}. Repair the file and run again"

@@ -17,7 +17,6 @@ import rasterio
 import shapely
 from pyproj import CRS, Transformer
 from shapely.geometry import LineString, MultiLineString
-from shapely.ops import transform
 
 from .checks import check_file, check_parts, check_simple, is_raster, is_vector
 from .errors import InputError, InputFileError
@@ -55,7 +54,8 @@ def read_centreline(
     if target_crs is not None and not crs.equals(target_crs):
         # reproject the parts first, so gaps are measured in the working CRS's metres
         tr = Transformer.from_crs(crs, target_crs, always_xy=True)
-        geoms = [transform(tr.transform, g) for g in geoms]
+        geoms = [shapely.transform(g, lambda c: np.column_stack(tr.transform(c[:, 0], c[:, 1])))
+                 for g in geoms]
         crs = target_crs
     line = _join_lines(geoms, source=str(p), tolerance=gap_tolerance)
     if not np.isfinite(line.length):
@@ -146,6 +146,8 @@ def open_dem(path: str | Path) -> DemInfo:
     if crs is None:
         raise InputError(f"{p}: the DEM has no coordinate reference system; assign one")
     pcrs = CRS.from_user_input(crs.to_wkt())
+    if pcrs.is_compound:  # the horizontal part places the stations; levels: demread.py
+        pcrs = next((c for c in pcrs.sub_crs_list if not c.is_vertical), pcrs)
     if pcrs.is_geographic:
         raise InputError(f"{p}: the DEM is in a geographic CRS (degrees); reproject it to a "
                          "projected CRS in metres (e.g. the local UTM zone)")

@@ -81,8 +81,8 @@ _CORE = {"stations", "stretches", "run_metadata", "section_profiles", "layer_sty
          "cross_sections", "crest_line"}
 
 
-def load_report_data(gpkg: str | Path) -> ReportData:
-    """Read the layers the report needs from a results GeoPackage."""
+def load_report_data(gpkg: str | Path, *, name: str | None = None) -> ReportData:
+    """Read the layers the report needs from a results GeoPackage (shown as ``name``)."""
     p = Path(gpkg)
     if not p.is_file():
         raise InputFileError(f"{p}: results GeoPackage not found")
@@ -105,7 +105,7 @@ def load_report_data(gpkg: str | Path) -> ReportData:
     layers = {n: pyogrio.read_dataframe(p, layer=n) for n in sorted(names - _CORE)}
     return ReportData(stations=stations, stretches=stretches,
                       metadata=dict(zip(meta["key"], meta["value"], strict=True)),
-                      profiles=pd.DataFrame(profiles), source=p.name, layers=layers)
+                      profiles=pd.DataFrame(profiles), source=name or p.name, layers=layers)
 
 
 def summary_figures(stations: pd.DataFrame, stretches: pd.DataFrame) -> dict[str, float]:
@@ -251,10 +251,16 @@ def render_html(data: ReportData, *, extra_sections: Sequence[Section] = ()) -> 
 
 
 def write_report(gpkg: str | Path, out: str | Path, *, overwrite: bool = False,
-                 extra_sections: Sequence[Section] = ()) -> Path:
-    """Build the report of a results GeoPackage and write it to ``out`` atomically."""
-    html = render_html(load_report_data(gpkg), extra_sections=extra_sections)
+                 extra_sections: Sequence[Section] = (), name: str | None = None) -> Path:
+    """Build the report of a results GeoPackage and write it to ``out`` atomically.
+
+    ``name`` is the GeoPackage's name shown in the report (default: its file name).
+    """
+    from .targets import check_targets
+
+    check_targets({"the report": Path(out)}, {"the results": gpkg})
+    html = render_html(load_report_data(gpkg, name=name), extra_sections=extra_sections)
     with atomic_path(out, overwrite=overwrite) as tmp:
         tmp.write_text(html, encoding="utf-8")
-    log.info("wrote report %s", out)
+    log.debug("wrote report %s", out)
     return Path(out)
