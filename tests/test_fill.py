@@ -38,7 +38,7 @@ def _stations(margins, *, spacing=25.0):
     })
 
 
-def test_stretch_table_sorted_by_worst_margin_with_length_and_volume():
+def test_stretch_table_by_chainage_ranked_by_worst_margin_with_length_and_volume():
     margins = [0.3, 0.3, -0.2, -0.4, 0.05, 0.3, np.nan, 0.3]
     st = _stations(margins)
     stretches = pd.DataFrame({
@@ -49,6 +49,9 @@ def test_stretch_table_sorted_by_worst_margin_with_length_and_volume():
         "worst_margin": [0.3, -0.4, 0.05, 0.3, np.nan, 0.3],
     })
     t = stretch_table(st, stretches)
+    assert t["from_chainage"].tolist() == stretches["from_chainage"].tolist()
+    assert t["severity_rank"].tolist() == [3, 1, 2, 4, 6, 5]
+    t = t.sort_values("severity_rank")
     assert t["status"].tolist() == ["deficit", "watch", "ok", "ok", "ok", "no_data"]
     d = t.iloc[0]
     assert d["crest_raise"] == pytest.approx(0.4)

@@ -80,7 +80,8 @@ def test_cli_writes_one_geopackage_with_a_line_id_on_every_layer(two_lines):
         "dike", "--quiet"])
     assert r.exit_code == 0, r.output
     for layer in ("stations", "cross_sections", "crest_line", "stretches"):
-        assert LAYERS[layer][1][0].name == "line_id"
+        # right after the leading chainage field (the first column of every table)
+        assert LAYERS[layer][1][1].name == "line_id"
         df = pyogrio.read_dataframe(out, layer=layer)
         assert set(df["line_id"]) == {"north-a", "north-b"}, layer
     st = pyogrio.read_dataframe(out, layer="stretches")

@@ -414,6 +414,7 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
     if match is not None:
         status[match.effect == "exclude"] = EXCLUDED
     table = _station_table(st, side, cond, sec, cols, status)
+    table["lon"], table["lat"] = _wgs84(crs, st.x, st.y)
     _structure_columns(table, ground_crest, match)
     table.insert(0, "line_id", pl.line_id)
     table["flags"] = add_flag(table["flags"].to_numpy(), off, FLAG_OFF_DEM)
@@ -466,6 +467,15 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
                  profiles=profiles, metadata=meta, epochs=levels, options=options,
                  lines={pl.line_id: line}, economics=economics, structures=known)
     return _LineRun(pl.line_id, line, res, len(st))
+
+
+def _wgs84(crs: CRS, x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Longitude and latitude (degrees, WGS 84) of projected points (pyproj)."""
+    from pyproj import Transformer
+
+    tr = Transformer.from_crs(crs, CRS.from_epsg(4326), always_xy=True)
+    lon, lat = tr.transform(np.asarray(x, float), np.asarray(y, float))
+    return np.asarray(lon, float), np.asarray(lat, float)
 
 
 def _structure_columns(table: pd.DataFrame, ground_crest: np.ndarray,

@@ -27,6 +27,7 @@ EXTRA_COLUMNS: dict[str, tuple[str, str]] = {
                     "(whole_stretch, incl. settlement of new fill); else required - crest"),
     "length_to_raise": ("m", "Chainage length whose crest is below the required level"),
     "fill_volume": ("m3", "Estimated fill of that raise, keeping crest width and slopes"),
+    "severity_rank": ("", "1 = the worst margin of the line(s), then in order (no_data last)"),
 }
 
 
@@ -67,7 +68,10 @@ def station_fill(stations: pd.DataFrame, *, start: float, end: float) -> pd.Data
 
 def stretch_table(stations: pd.DataFrame, stretches: pd.DataFrame,
                   options: pd.DataFrame | None = None) -> pd.DataFrame:
-    """The stretches, worst margin first (no_data last), with raise, length and fill volume.
+    """The stretches by chainage with their severity rank, raise, length and fill volume.
+
+    ``severity_rank`` is 1 for the smallest worst margin and counts up (no_data
+    and excluded stretches last), so sorting on it gives the worst first.
 
     Where ``options`` (the options layer) has a whole-stretch ``raise`` for a
     stretch, its raise and fill are the stretch's, so the summary, the tables and
@@ -93,8 +97,15 @@ def stretch_table(stations: pd.DataFrame, stretches: pd.DataFrame,
     if options is not None and not options.empty:
         _from_options(out, options)
     key = out["worst_margin"].to_numpy(float)
-    order = np.lexsort((out["from_chainage"].to_numpy(float), np.where(np.isnan(key), np.inf, key)))
-    return out.iloc[order].reset_index(drop=True)
+    last = np.isnan(key) | (out["status"].to_numpy(object) == "excluded")
+    order = np.lexsort((out["from_chainage"].to_numpy(float), np.where(last, np.inf, key),
+                        last))
+    rank = np.empty(n, int)
+    rank[order] = np.arange(1, n + 1)
+    out["severity_rank"] = rank
+    lines = out["line_id"].to_numpy(object) if "line_id" in out else np.zeros(n, object)
+    by_chainage = np.lexsort((out["from_chainage"].to_numpy(float), lines.astype(str)))
+    return out.iloc[by_chainage].reset_index(drop=True)
 
 
 def _from_options(out: pd.DataFrame, options: pd.DataFrame) -> None:

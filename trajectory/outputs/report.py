@@ -147,7 +147,8 @@ def _summary_table(fig: dict[str, float]) -> str:
 
 
 def _worst_table(table: pd.DataFrame) -> str:
-    bad = table[table["status"].isin(["deficit", "watch"])].head(WORST_ROWS)
+    ranked = table.sort_values("severity_rank", kind="stable")
+    bad = ranked[ranked["status"].isin(["deficit", "watch"])].head(WORST_ROWS)
     if bad.empty:
         return "<p>No stretch is in deficit or on watch.</p>"
     head = ("<tr><th>#</th><th>from (m)</th><th>to (m)</th><th>length (m)</th><th>status</th>"

@@ -24,6 +24,10 @@ def _f(name: str, kind: str, unit: str, description: str) -> Field:
 STATION_FIELDS: tuple[Field, ...] = (
     _f("chainage", "float", "m", "Chainage of the station along the centreline"),
     _f("section_id", "str", "", "Section of the conditions table the station lies in"),
+    _f("x", "float", "m", "Easting of the station on the centreline (the run's projected CRS)"),
+    _f("y", "float", "m", "Northing of the station on the centreline (the run's projected CRS)"),
+    _f("lat", "float", "degrees", "Latitude of the station, WGS 84 (EPSG:4326)"),
+    _f("lon", "float", "degrees", "Longitude of the station, WGS 84 (EPSG:4326)"),
     _f("crest_level", "float", "m",
        "Crest level assessed (DEM datum): the mean between the crest edges, or the "
        "water-side edge level where a cross-fall makes that lower; objects removed"),
@@ -276,8 +280,8 @@ SECTION_PROFILE_FIELDS: tuple[Field, ...] = (
 )
 
 OPTION_FIELDS: tuple[Field, ...] = (
-    _f("line_id", "str", "", "Line the stretch belongs to (empty for a single line)"),
     _f("from_chainage", "float", "m", "Start of the stretch"),
+    _f("line_id", "str", "", "Line the stretch belongs to (empty for a single line)"),
     _f("to_chainage", "float", "m", "End of the stretch"),
     _f("length", "float", "m", "Length of the stretch"),
     _f("status", "str", "", "Status of the stretch (deficit, or watch on request)"),
@@ -337,8 +341,10 @@ LAYERS: dict[str, tuple[str | None, tuple[Field, ...]]] = {
 # --- several lines in one run: the spatial layers lead with the line's id
 LINE_ID_FIELD = _f("line_id", "str", "",
                    "Id of the centreline (its --line-id-field value; empty for a single line)")
+# (after the leading chainage field, so tables open on the chainage, frozen beside the header)
 for _name in ("stations", "cross_sections", "crest_line", "stretches"):
-    LAYERS[_name] = (LAYERS[_name][0], (LINE_ID_FIELD, *LAYERS[_name][1]))
+    _fields = LAYERS[_name][1]
+    LAYERS[_name] = (LAYERS[_name][0], (_fields[0], LINE_ID_FIELD, *_fields[1:]))
 
 
 def field_names(layer: str) -> list[str]:

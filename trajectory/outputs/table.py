@@ -10,9 +10,44 @@ from .csvtext import write_csv
 from .schema import field_names
 
 
+#: decimals of coordinates in degrees in the CSV (1e-7 degree is about 1 cm)
+DEGREE_DECIMALS = 7
+
+
 def deficit_frame(result):
     """The station table restricted to the contract fields, in contract order."""
     return result.stations[field_names("stations")]
+
+
+def units_line(columns, layer: str) -> str:
+    """A ``#`` comment line of the columns' units, aligned with the header below it."""
+    from .fill import EXTRA_COLUMNS
+    from .schema import LAYERS
+
+    unit = {f.name: f.unit for f in LAYERS[layer][1]}
+    unit.update({k: v[0] for k, v in EXTRA_COLUMNS.items()})
+    cells = [_csv_cell(unit.get(c, "")) for c in columns]
+    return "# units: " + ",".join(cells) + "\n"
+
+
+def _csv_cell(text: str) -> str:
+    return f'"{text}"' if "," in text or '"' in text else text
+
+
+def _degrees_as_text(df):
+    """Columns in degrees written with :data:`DEGREE_DECIMALS` (the table's 4 are ~10 m)."""
+    import numpy as np
+
+    from .schema import LAYERS
+
+    deg = [f.name for f in LAYERS["stations"][1] if f.unit == "degrees" and f.name in df]
+    if not deg:
+        return df
+    df = df.copy()
+    for c in deg:
+        v = df[c].to_numpy(float)
+        df[c] = np.where(np.isfinite(v), np.char.mod(f"%.{DEGREE_DECIMALS}f", v), "")
+    return df
 
 
 def write_deficit_table(result, path: str | Path, *, overwrite: bool = False) -> Path:
@@ -23,7 +58,8 @@ def write_deficit_table(result, path: str | Path, *, overwrite: bool = False) ->
             fh.write(f"# {CAUTION}\n")
             if result.metadata.get("incomplete"):  # a partial result must say so (issue 7)
                 fh.write(f"# INCOMPLETE, DEM unreadable for: {result.metadata['incomplete']}\n")
-            write_csv(df, fh, decimals=4)
+            fh.write(units_line(df.columns, "stations"))
+            write_csv(_degrees_as_text(df), fh, decimals=4)
     return Path(path)
 
 
@@ -42,5 +78,6 @@ def write_stretch_table(result, path: str | Path, *, overwrite: bool = False) ->
     with atomic_path(path, overwrite=overwrite) as tmp:
         with open(tmp, "w", encoding="utf-8", newline="") as fh:
             fh.write(f"# {CAUTION} Fill volumes are estimates (method in the README).\n")
+            fh.write(units_line(df.columns, "stretches"))
             write_csv(df, fh, decimals=4)
     return Path(path)

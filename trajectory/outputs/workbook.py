@@ -2,10 +2,12 @@
 run metadata.
 
 Each data sheet has the caution in its first row, the field names in the
-second, their units in the third and the values from the fourth; panes are
-frozen below the header and status cells are filled with the status colours.
-On the ``options`` sheet (the options layer's fields) the cheapest option
-that closes the gap of each stretch and basis is in bold with a star.
+second, their units in the third (which carries the autofilter buttons) and the
+values from the fourth; the chainage column leads and is frozen with the header,
+numbers carry formats by their unit (chainage and widths to 0.1 m, levels to
+0.01 m, years as integers) and status cells are filled with the status colours.
+On the ``options`` sheet (the options layer's fields) the cheapest option that
+closes the gap of each stretch and basis is in bold; its ``cheapest`` column is 1.
 """
 
 from __future__ import annotations
@@ -25,8 +27,8 @@ from .xlsx import Style, Workbook
 
 #: first row of values on a data sheet (1-based, as in the spreadsheet)
 FIRST_DATA_ROW = 4
-#: mark of the cheapest option on the options sheet (beside the 1 of `cheapest`)
-CHEAPEST_MARK = "\u2605 cheapest"
+#: decimals of coordinates in degrees (1e-7 degree is about 1 cm)
+DEGREE_DECIMALS = 7
 #: font colour of the caution row: the deficit colour (A6103C)
 CAUTION_COLOUR = STATUS_COLOURS["deficit"].lstrip("#")
 #: statuses whose fill is light enough for black text (white on the others)
@@ -37,6 +39,36 @@ def _units(layer: str) -> dict[str, str]:
     u = {f.name: f.unit for f in LAYERS[layer][1]}
     u.update({k: v[0] for k, v in EXTRA_COLUMNS.items()})
     return u
+
+
+def number_format(name: str, unit: str, kind: str = "float") -> str | None:
+    """Display format of a column from its unit (the stored value keeps every decimal).
+
+    Chainages, offsets, widths and lengths to 0.1 m; levels, margins and other
+    heights to 0.01 m (standard deviations to 1 mm); years as integers; volumes
+    and costs with thousands separators; rates, probabilities and factors to 3
+    decimals. None: the spreadsheet's general format.
+    """
+    if unit == "year" or kind == "int":
+        return "0"
+    if unit == "m":
+        if name.endswith("_sigma"):
+            return "0.000"
+        horizontal = ("chainage" in name or name in ("length", "length_to_raise", "outer_toe",
+                                                     "inner_toe", "crest_offset", "x", "y")
+                      or "width" in name or "footprint" in name)
+        return "0.0" if horizontal else "0.00"
+    if unit in ("m3", "cost units"):
+        return "#,##0"
+    if unit == "degrees":
+        return "0.000000"
+    if unit in ("m/yr", "probability", "-", "fraction", "n of 1:n", "m/m", "l/s per m"):
+        return "0.000" if unit != "n of 1:n" else "0.00"
+    return None
+
+
+def _kinds(layer: str) -> dict[str, str]:
+    return {f.name: f.kind for f in LAYERS[layer][1]} if layer in LAYERS else {}
 
 
 def _status_styles(wb: Workbook, status: np.ndarray, bold: np.ndarray) -> np.ndarray:
@@ -53,34 +85,36 @@ def _status_styles(wb: Workbook, status: np.ndarray, bold: np.ndarray) -> np.nda
 
 def _sheet(wb: Workbook, title: str, df: pd.DataFrame, units: dict[str, str],
            caution: str, *, bold_rows: np.ndarray | None = None,
-           mark: tuple[str, str] | None = None) -> None:
+           kinds: dict[str, str] | None = None) -> None:
     """One data sheet: caution, field names (bold), units (italic), then the values.
 
-    ``bold_rows`` marks rows to set in bold; ``mark`` = (column, text) is appended
-    to that column's value on those rows.
+    The first column (the chainage, by the contract's order) is frozen with the
+    three header rows; the units
+    row carries the autofilter; ``bold_rows`` marks rows to set in bold.
     """
     cols = list(df.columns)
     n = len(df)
+    kinds = kinds or {}
     bold = np.zeros(n, bool) if bold_rows is None else np.asarray(bold_rows, bool)
-    values: list = [df[c] for c in cols]
-    if mark and mark[0] in cols and bold.any():
-        j = cols.index(mark[0])
-        v = df[mark[0]].to_numpy(dtype=object).copy()
-        v[bold] = [f"{x} {mark[1]}" for x in v[bold]]
-        values[j] = v
-    row_style = np.where(bold, wb.style(Style(bold=True)), 0) if bold.any() else 0
-    styles: list = [row_style] * len(cols)
+    styles: list = []
+    for c in cols:
+        fmt = number_format(c, units.get(c, ""), kinds.get(c, "float"))
+        plain = wb.style(Style(number_format=fmt))
+        strong = wb.style(Style(bold=True, number_format=fmt))
+        styles.append(np.where(bold, strong, plain) if bold.any() else plain)
     if "status" in cols:
         status = df["status"].to_numpy(dtype=object)
         styles[cols.index("status")] = _status_styles(wb, status, bold)
     wb.add_sheet(
-        title, values,
+        title, [df[c] for c in cols],
         head=[[caution], cols, [units.get(c, "") for c in cols]],
         head_styles=[wb.style(Style(bold=True, colour=CAUTION_COLOUR)),
                      wb.style(Style(bold=True)), wb.style(Style(italic=True))],
         styles=styles, freeze=f"B{FIRST_DATA_ROW}",
         widths=[max(10, min(28, len(c) + 2)) for c in cols],
-        decimals=4)  # 4 decimals, as in the CSV (mm and better for levels)
+        # 4 decimals as in the CSV (mm and better for levels); degrees to 1e-7 (about 1 cm)
+        decimals=[DEGREE_DECIMALS if units.get(c) == "degrees" else 4 for c in cols],
+        autofilter=FIRST_DATA_ROW - 1 if n else None)
 
 
 def _when(metadata: dict) -> datetime | None:
@@ -101,20 +135,21 @@ def write_workbook(stations: pd.DataFrame, stretches: pd.DataFrame, metadata: di
     from ..remedies import CAVEAT, COST_NOTE
 
     wb = Workbook()
-    _sheet(wb, "stations", stations, _units("stations"), CAUTION)
+    _sheet(wb, "stations", stations, _units("stations"), CAUTION, kinds=_kinds("stations"))
     _sheet(wb, "stretches", stretches, _units("stretches"),
-           CAUTION + " Fill volumes are estimates (method in the README).")
+           CAUTION + " Fill volumes are estimates (method in the README).",
+           kinds={**_kinds("stretches"), "severity_rank": "int"})
     if options is not None:
         cheapest = (options["cheapest"].to_numpy().astype(int) > 0
                     if "cheapest" in options.columns else None)
         _sheet(wb, "options", options, _units("options"),
                f"{CAUTION} Reinforcement options: {CAVEAT} {COST_NOTE}",
-               bold_rows=cheapest, mark=("option", CHEAPEST_MARK))
+               bold_rows=cheapest, kinds=_kinds("options"))
     if economics is not None and not economics.empty:
         from ..economics import CAVEAT as ECONOMICS_CAVEAT
 
         _sheet(wb, "economics", economics, _units("economics"),
-               f"{CAUTION} {ECONOMICS_CAVEAT}")
+               f"{CAUTION} {ECONOMICS_CAVEAT}", kinds=_kinds("economics"))
     meta = pd.DataFrame({"key": list(metadata), "value": [str(v) for v in metadata.values()]})
     _sheet(wb, "run", meta, {}, CAUTION)
     with atomic_path(path, overwrite=overwrite) as tmp:

@@ -57,12 +57,14 @@ _HEX6 = re.compile("[0-9A-Fa-f]{6}")
 
 @dataclass(frozen=True)
 class Style:
-    """Look of a cell: font weight, slant and colour, solid fill (colours as ``RRGGBB``)."""
+    """Look of a cell: font weight, slant and colour, solid fill (colours as ``RRGGBB``),
+    and a number format code (ECMA-376 Part 1 §18.8.31, e.g. ``"0.00"``)."""
 
     bold: bool = False
     italic: bool = False
     colour: str | None = None
     fill: str | None = None
+    number_format: str | None = None
 
 
 def _normalised(style: Style) -> Style:
@@ -72,7 +74,7 @@ def _normalised(style: Style) -> Style:
         if c is not None and not _HEX6.fullmatch(c.lstrip("#")):
             raise ValueError(f"colour {c!r}: give six hex digits RRGGBB, e.g. 'A6103C'")
         out.append(None if c is None else c.lstrip("#").upper())
-    return Style(style.bold, style.italic, *out)
+    return Style(style.bold, style.italic, *out, style.number_format or None)
 
 
 def column_letter(index: int) -> str:
@@ -136,8 +138,9 @@ class _Sheet:
     styles: list[int | np.ndarray]
     freeze: tuple[int, int] | None
     widths: list[float] | None
-    decimals: int | None
+    decimals: int | list[int | None] | None
     n: int
+    autofilter: int | None = None   # 1-based row of the filter buttons
 
 
 class Workbook:
@@ -155,14 +158,17 @@ class Workbook:
                   head: Sequence[Sequence[Any]] = (), head_styles: Sequence[int] = (),
                   styles: Sequence[int | np.ndarray] | None = None,
                   freeze: str | None = None, widths: Sequence[float] | None = None,
-                  decimals: int | None = None) -> None:
+                  decimals: int | Sequence[int | None] | None = None,
+                  autofilter: int | None = None) -> None:
         """Add a sheet: ``head`` rows (values left to right) above the body ``columns``.
 
         ``head_styles`` has one style id per head row; ``styles`` one per body
         column, either a single id or an integer array of ids, one per row.
         ``freeze`` is the top-left cell of the scrolling pane (``"B4"`` keeps
         column A and rows 1-3 in view); ``widths`` are column widths in
-        characters; ``decimals`` rounds the floats.
+        characters; ``decimals`` rounds the floats (one number, or one per column);
+        ``autofilter`` is the 1-based
+        row that carries filter buttons over every column, down to the last row.
         """
         if not name or len(name) > 31 or _BAD_SHEET_NAME.search(name):
             raise ValueError(f"sheet name {name!r}: give 1 to 31 characters, none of "
@@ -193,7 +199,10 @@ class Workbook:
                 raise ValueError(f"sheet {name!r}: a style array needs one id per row ({n})")
         self._sheets.append(_Sheet(name, cols, [list(r) for r in head], hs, st,
                                    _cell_ref(freeze) if freeze else None,
-                                   list(widths) if widths is not None else None, decimals, n))
+                                   list(widths) if widths is not None else None,
+                                   list(decimals) if isinstance(decimals, (list, tuple))
+                                   else decimals, n,
+                                   autofilter))
 
     def save(self, path: str | Path, *, when: datetime | None = None,
              compresslevel: int = 1) -> Path:
@@ -208,7 +217,8 @@ class Workbook:
         parts = [("[Content_Types].xml", _content_types(len(self._sheets))),
                  ("_rels/.rels", _root_rels()),
                  ("docProps/core.xml", _core(stamp)),
-                 ("xl/workbook.xml", _workbook_xml([s.name for s in self._sheets])),
+                 ("xl/workbook.xml", _workbook_xml([s.name for s in self._sheets],
+                                                   [_filter_ref(s) for s in self._sheets])),
                  ("xl/_rels/workbook.xml.rels", _workbook_rels(len(self._sheets))),
                  ("xl/styles.xml", _styles_xml(list(self._styles)))]
         with zipfile.ZipFile(path, "w", zipfile.ZIP_DEFLATED, compresslevel=compresslevel) as zf:
@@ -349,16 +359,27 @@ def _sheet_pieces(sh: _Sheet) -> Iterator[str]:
         cols = "<cols>" + "".join(
             f'<col min="{j}" max="{j}" width="{w:g}" customWidth="1"/>'
             for j, w in enumerate(sh.widths, start=1)) + "</cols>"
-    head = "".join(_head_row(r, k, s, sh.decimals)
+    per_column = isinstance(sh.decimals, (list, tuple))
+    head = "".join(_head_row(r, k, s, None if per_column else sh.decimals)
                    for k, (r, s) in enumerate(zip(sh.head, sh.head_styles, strict=True), 1))
     yield (f'{_XML_HEAD}<worksheet xmlns="{_MAIN}" xmlns:r="{_REL}">'
            f'<dimension ref="A1:{last}"/><sheetViews><sheetView workbookViewId="0">{pane}'
            f'</sheetView></sheetViews><sheetFormatPr defaultRowHeight="15"/>{cols}'
            f"<sheetData>{head}")
-    plans = [_plan(c, column_letter(j), s, sh.decimals)
+    plans = [_plan(c, column_letter(j), s, sh.decimals[j] if per_column else sh.decimals)
              for j, (c, s) in enumerate(zip(sh.columns, sh.styles, strict=True))]
     yield from _body(plans, h + 1, sh.n)
-    yield "</sheetData></worksheet>"
+    ref = _filter_ref(sh)
+    yield "</sheetData>" + (f'<autoFilter ref="{ref}"/>' if ref else "") + "</worksheet>"
+
+
+def _filter_ref(sh: _Sheet) -> str | None:
+    """The autofilter range of a sheet (``A3:K120``), None without one."""
+    if not sh.autofilter:
+        return None
+    width = max([len(sh.columns), *(len(r) for r in sh.head)])
+    last = max(len(sh.head) + sh.n, sh.autofilter)
+    return f"A{sh.autofilter}:{column_letter(max(width, 1) - 1)}{last}"
 
 
 # --- package parts ----------------------------------------------------------------------
@@ -397,11 +418,29 @@ def _core(stamp: datetime | None) -> str:
             f"<dc:creator>trajectory</dc:creator>{dates}</cp:coreProperties>")
 
 
-def _workbook_xml(names: list[str]) -> str:
+def _workbook_xml(names: list[str], filters: list[str | None] | None = None) -> str:
     sheets = "".join(f'<sheet name={quoteattr(n)} sheetId="{k}" r:id="rId{k}"/>'
                      for k, n in enumerate(names, start=1))
+    # each autofilter's range as the sheet's hidden _FilterDatabase name (as spreadsheets do)
+    names_xml = "".join(_defined_filter(k, n, ref) for k, (n, ref) in enumerate(
+        zip(names, filters or [None] * len(names), strict=True)) if ref)
+    defined = f"<definedNames>{names_xml}</definedNames>" if names_xml else ""
     return (f'{_XML_HEAD}<workbook xmlns="{_MAIN}" xmlns:r="{_REL}">'
-            f"<bookViews><workbookView/></bookViews><sheets>{sheets}</sheets></workbook>")
+            f"<bookViews><workbookView/></bookViews><sheets>{sheets}</sheets>{defined}"
+            "</workbook>")
+
+
+def _defined_filter(k: int, name: str, ref: str) -> str:
+    """``_xlnm._FilterDatabase`` of sheet ``k`` (0-based): an absolute reference."""
+    a, b = ref.split(":")
+
+    def absolute(cell: str) -> str:
+        col, row = _cell_ref(cell)
+        return f"${column_letter(col)}${row + 1}"
+
+    quoted = name.replace("'", "''")
+    return (f'<definedName name="_xlnm._FilterDatabase" localSheetId="{k}" hidden="1">'
+            f"{_text(chr(39) + quoted + chr(39))}!{absolute(a)}:{absolute(b)}</definedName>")
 
 
 def _workbook_rels(n_sheets: int) -> str:
@@ -420,12 +459,18 @@ def _styles_xml(styles: list[Style]) -> str:
     """Fonts, fills and one cell format per style (ECMA-376 Part 1, §18.8)."""
     fonts: dict[tuple, int] = {}
     fills: dict[str | None, int] = {None: 0}        # fills 0 and 1 are reserved (none, gray125)
+    formats: dict[str, int] = {}                    # custom number formats from id 164
     xfs = []
     for st in styles:
         f = fonts.setdefault((st.bold, st.italic, st.colour), len(fonts))
         g = fills.setdefault(st.fill, len(fills) + 1) if st.fill else 0
-        apply = (' applyFont="1"' if f else "") + (' applyFill="1"' if g else "")
-        xfs.append(f'<xf numFmtId="0" fontId="{f}" fillId="{g}" borderId="0" xfId="0"{apply}/>')
+        m = formats.setdefault(st.number_format, 164 + len(formats)) if st.number_format else 0
+        apply = ((' applyFont="1"' if f else "") + (' applyFill="1"' if g else "")
+                 + (' applyNumberFormat="1"' if m else ""))
+        xfs.append(f'<xf numFmtId="{m}" fontId="{f}" fillId="{g}" borderId="0" xfId="0"{apply}/>')
+    fmt_xml = (f'<numFmts count="{len(formats)}">' + "".join(
+        f"<numFmt numFmtId={quoteattr(str(i))} formatCode={quoteattr(code)}/>"
+        for code, i in formats.items()) + "</numFmts>") if formats else ""
     font_xml = "".join(
         "<font>" + ("<b/>" if b else "") + ("<i/>" if i else "") + '<sz val="11"/>'
         + (f'<color rgb="{_argb(c)}"/>' if c else "") + '<name val="Calibri"/>'
@@ -434,7 +479,7 @@ def _styles_xml(styles: list[Style]) -> str:
         '<fill><patternFill patternType="gray125"/></fill>' + "".join(
             f'<fill><patternFill patternType="solid"><fgColor rgb="{_argb(c)}"/>'
             '<bgColor indexed="64"/></patternFill></fill>' for c in fills if c)
-    return (f'{_XML_HEAD}<styleSheet xmlns="{_MAIN}">'
+    return (f'{_XML_HEAD}<styleSheet xmlns="{_MAIN}">{fmt_xml}'
             f'<fonts count="{len(fonts)}">{font_xml}</fonts>'
             f'<fills count="{len(fills) + 1}">{fill_xml}</fills>'
             '<borders count="1"><border><left/><right/><top/><bottom/><diagonal/></border>'
