@@ -22,9 +22,9 @@ KW = dict(object_width=1.0, crest_search=15.0, crest_tolerance=0.10, max_nodata=
 
 
 def sampled(shape, *, rows: int = 40, half: float = 50.0, sigma: float = 0.03,
-            seed: int = 0) -> tuple[np.ndarray, np.ndarray]:
+            rs: int = 0) -> tuple[np.ndarray, np.ndarray]:
     """``rows`` noisy DEM rows of the exact ``shape(x)``, sampled bilinearly a quarter cell off."""
-    rng = np.random.default_rng(seed)
+    rng = np.random.default_rng(rs)
     centres = np.arange(-half - 2 * CELL, half + 2 * CELL + 1e-9, CELL)
     grid = shape(centres)[None, :] + rng.normal(0.0, sigma, (rows, centres.size))
     off = np.arange(-half, half + 1e-9, CELL)
@@ -58,7 +58,7 @@ def rounded_composite(x):
 
 
 def test_rounded_shoulder_above_a_composite_slope():
-    z, off = sampled(rounded_composite, seed=1)
+    z, off = sampled(rounded_composite, rs=1)
     m = read_profiles(z, off, **KW)
     assert m.readable.all()
     # the edges on the shoulders (the virtual intersections of crest and upper segment)
@@ -97,7 +97,7 @@ def inner_platform(x):
 
 
 def test_wide_inner_platform_is_a_berm_and_the_toe_is_below_it():
-    z, off = sampled(inner_platform, half=70.0, seed=2)
+    z, off = sampled(inner_platform, half=70.0, rs=2)
     m = read_profiles(z, off, **KW)
     assert m.readable.all()
     assert np.abs(m.inner_berm_level - 5.6).max() <= 0.05
@@ -119,7 +119,7 @@ def wide_crest(x):
 
 
 def test_wide_crest_with_a_cross_fall():
-    z, off = sampled(wide_crest, seed=3)
+    z, off = sampled(wide_crest, rs=3)
     m = read_profiles(z, off, **KW)
     assert m.readable.all()
     assert np.abs(m.crest_width - 20.0).max() <= 1.0
@@ -148,7 +148,7 @@ def test_holes_on_the_crest_are_flagged_and_never_read_as_a_lowering(hole):
         # the hole's length on a rounded crest: draw the crest dipping where unseen
         return np.where(np.abs(x - 0.5) < hole / 2, np.nan, z)
 
-    z, off = sampled(holed, seed=int(hole))
+    z, off = sampled(holed, rs=int(hole))
     m = read_profiles(z, off, **KW)
     flagged = (m.flags & FLAGS["crest_interpolated"]) > 0
     assert flagged.all()
@@ -164,7 +164,7 @@ def test_holes_on_the_crest_are_flagged_and_never_read_as_a_lowering(hole):
 
 
 def test_no_hole_no_flag_and_no_lowering():
-    z, off = sampled(trapezoid6, seed=9)
+    z, off = sampled(trapezoid6, rs=9)
     m = read_profiles(z, off, **KW)
     assert not ((m.flags & FLAGS["crest_interpolated"]) > 0).any()
     assert np.abs(m.crest_level - 6.0).max() <= 0.05
@@ -181,7 +181,7 @@ def foreshore(x):
 
 @pytest.mark.parametrize("half", [50.0, 70.0])
 def test_sea_as_nodata_beyond_a_foreshore_strip(half):
-    z, off = sampled(foreshore, half=half, seed=int(half))
+    z, off = sampled(foreshore, half=half, rs=int(half))
     # the design still water level (4.5 m) makes the nodata's edge at 2.0 m plausible water
     m = read_profiles(z, off, **KW, water_level=4.5)
     assert m.readable.all()
@@ -201,7 +201,7 @@ def test_a_survey_that_ends_on_the_slope_is_truncated_not_water():
         z = foreshore(np.asarray(x, float))
         return np.where(x > 8.0, np.nan, np.nan_to_num(z, nan=2.0))  # ends at level 4.0
 
-    z, off = sampled(ends, seed=5)
+    z, off = sampled(ends, rs=5)
     m = read_profiles(z, off, **KW, water_level=3.0)
     assert m.readable.all()
     assert ((m.flags & FLAGS["outer_truncated"]) > 0).all()

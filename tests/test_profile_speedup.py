@@ -253,8 +253,8 @@ def _flat_and_odd(off: np.ndarray) -> np.ndarray:
     return z
 
 
-def _batch(seed: int, step: float = 0.5, half: float = 50.0, n: int = 64) -> tuple:
-    rng = np.random.default_rng(seed)
+def _batch(rs: int, step: float = 0.5, half: float = 50.0, n: int = 64) -> tuple:
+    rng = np.random.default_rng(rs)
     off = _offsets(step, half)
     z = np.vstack([_composites(rng, n - 16, off), _synthetic_levee(rng, 12, off),
                    _flat_and_odd(off)])
@@ -262,7 +262,7 @@ def _batch(seed: int, step: float = 0.5, half: float = 50.0, n: int = 64) -> tup
 
 
 KW = dict(object_width=1.0, crest_search=15.0, crest_tolerance=0.10, max_nodata=0.5)
-#: (seed, sample step, half-width, reading settings)
+#: (rs, sample step, half-width, reading settings)
 CASES = [
     (1, 0.5, 50.0, KW),
     (2, 0.5, 50.0, KW),
@@ -286,11 +286,11 @@ def _station_conditions(rng: np.random.Generator, m: ProfileMetrics) -> dict:
                 gamma_beta=rng.uniform(0.8, 1.0, n))
 
 
-@pytest.mark.parametrize("seed,step,half,kw", CASES)
+@pytest.mark.parametrize("rs,step,half,kw", CASES)
 @pytest.mark.parametrize("waves", ["tm10", "no_period"])
-def test_characteristic_slope_matches_the_reference(seed, step, half, kw, waves):
-    z, off = _batch(seed, step, half)
-    rng = np.random.default_rng(seed + 100)
+def test_characteristic_slope_matches_the_reference(rs, step, half, kw, waves):
+    z, off = _batch(rs, step, half)
+    rng = np.random.default_rng(rs + 100)
     m = pr.read_profiles(z, off, **kw)
     args = dict(crest_level=m.crest_level, outer_edge=m.outer_edge,
                 **_station_conditions(rng, m), object_width=kw["object_width"])

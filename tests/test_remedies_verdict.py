@@ -145,12 +145,12 @@ def _synthetic(n, *, crest, fitted, char_n, berm_w, berm_l, hm0, settle, wl):
 
 
 @settings(max_examples=40, deadline=None)
-@given(n=st.integers(3, 30), seed=st.integers(0, 2**31 - 1), hm0=st.floats(0.3, 1.4),
+@given(n=st.integers(3, 30), rs=st.integers(0, 2**31 - 1), hm0=st.floats(0.3, 1.4),
        settle=st.floats(0.0, 0.3), char_n=st.floats(2.0, 7.0), fitted=st.floats(2.0, 7.0),
        with_berm=st.booleans(), include_watch=st.booleans())
-def test_synthetic_closing_options_close_at_every_station(n, seed, hm0, settle, char_n, fitted,
+def test_synthetic_closing_options_close_at_every_station(n, rs, hm0, settle, char_n, fitted,
                                                           with_berm, include_watch):
-    rng = np.random.default_rng(seed)
+    rng = np.random.default_rng(rs)
     wl = 4.0
     crest = wl + 0.2 + rng.uniform(0.6, 2.5, n)
     berm_w = np.where(with_berm & (rng.uniform(size=n) < 0.5), rng.uniform(1, 6, n), np.nan)

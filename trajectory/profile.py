@@ -393,9 +393,9 @@ def read_profiles(
     near_top = (d >= (top - tol)[:, None]) & zone[None, :]
     lo0, hi0 = _run_around(near_top, top_j)
     j = np.arange(m)[None, :]
-    seed = (j >= lo0[:, None]) & (j <= hi0[:, None])
+    top_run = (j >= lo0[:, None]) & (j <= hi0[:, None])
     flat = sides.flat_mask(sides.gradient(d, step, noise), step)
-    crestish = (seed | flat) & zone[None, :] & (d >= (top - CREST_MAX_FALL)[:, None])
+    crestish = (top_run | flat) & zone[None, :] & (d >= (top - CREST_MAX_FALL)[:, None])
     lo, hi = _run_around(crestish, top_j)
     zone_j = np.flatnonzero(zone)
     off_centre = (lo <= zone_j[0]) | (hi >= zone_j[-1])
