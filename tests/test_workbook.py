@@ -5,8 +5,8 @@ from __future__ import annotations
 import math
 
 import numpy as np
-import pytest
 import pandas as pd
+import pytest
 from openpyxl import load_workbook
 
 from trajectory.outputs.schema import LAYERS, field_names

@@ -27,6 +27,7 @@ from . import CAUTION, __version__, diagnosis, uncertainty
 from .chainage import Stations, crossing_sections, make_stations
 from .checks import check_chunk_memory, sections_off_the_line
 from .demread import DemReading, reading_rules, with_rules
+from .economics import section_economics
 from .epoch_sources import crest_from_result, open_earlier_dem
 from .epochs import Epoch, EpochLevels, assess_epochs, check_order, projected_year
 from .errors import InputError, ParameterError
@@ -37,7 +38,6 @@ from .execution import (
     run_time,
     side_by_side,
 )
-from .economics import section_economics
 from .faults import (
     FLAG_OFF_DEM,
     FLAG_READ_FAILED,

@@ -10,7 +10,6 @@ import numpy as np
 
 from . import hydraulics as hy
 from .profile import (
-    FLAGS,
     ProfileMetrics,
     characteristic_slope,
     cleaned_profiles,
@@ -29,8 +28,8 @@ def outer_characteristic_slope(
     :func:`trajectory.profile.characteristic_slope`), iterated on Ru2% with the
     section's Tm-1,0 and roughness. Where the outer toe is not dry ground (the slope
     runs into water, or the survey ends on it) the slope below the last sample is
-    extended with the lowest measured segment. Where no average slope can be formed (no waves, crest below the lower
-    point) the fitted outer slope 1/n is used.
+    extended with the lowest measured segment. Where no average slope can be formed
+    (no waves, crest below the lower point) the fitted outer slope 1/n is used.
     """
     swl = cond.water_level + cond.sea_level_rise
     toe_is_ground = prof.outer_toe_dry

@@ -9,7 +9,6 @@ from .atomic import atomic_path
 from .csvtext import write_csv
 from .schema import field_names
 
-
 #: decimals of coordinates in degrees in the CSV (1e-7 degree is about 1 cm)
 DEGREE_DECIMALS = 7
 
