@@ -708,11 +708,12 @@ def characteristic_slope(
     return tan
 
 
-def extrapolated_below(*, outer_toe_level: np.ndarray, outer_water: np.ndarray,
+def extrapolated_below(*, outer_toe_level: np.ndarray, toe_dry: np.ndarray,
                        swl: np.ndarray, hm0: np.ndarray) -> np.ndarray:
-    """True where the characteristic slope's lower point (SWL - 1.5 Hm0) lies under water.
+    """True where the characteristic slope's lower point (SWL - 1.5 Hm0) lies below the
+    last sample of a slope that does not end on dry ground (water, or the survey's end).
 
-    Those stations' slope below the waterline is extended from the slope above it.
+    Those stations' slope below it is extended with the lowest measured segment.
     """
-    return np.asarray(outer_water, bool) & (np.asarray(swl) - 1.5 * np.asarray(hm0)
+    return ~np.asarray(toe_dry, bool) & (np.asarray(swl) - 1.5 * np.asarray(hm0)
                                             < np.nan_to_num(outer_toe_level, nan=np.inf))

@@ -45,5 +45,5 @@ def outer_characteristic_slope(
         fallback = 1.0 / prof.outer_slope
     tan = np.where(np.isfinite(tan) & (tan > 0), tan, fallback)
     extra = extrapolated_below(outer_toe_level=prof.outer_toe_level,
-                               outer_water=~prof.outer_toe_dry, swl=swl, hm0=cond.hm0)
+                               toe_dry=prof.outer_toe_dry, swl=swl, hm0=cond.hm0)
     return tan, extra & np.isfinite(tan)

@@ -357,19 +357,19 @@ def read_side(s: np.ndarray, meas: np.ndarray, f: np.ndarray, crest: np.ndarray,
 
     # slope runs: from the crest end (or a berm's end) to the next flat part (or the toe)
     half = max(int(round(0.5 * GRADIENT_WINDOW / step)), 1)
-    pieces_a, pieces_b, piece_lines = [], [], []   # sample ranges and (a, b) of each piece
+    mids, piece_lines = [], []   # the knee's sample (-1: none) and (a, b) of each piece
     run_a = np.zeros(n, int)
-    bounds: list[tuple[np.ndarray, np.ndarray, np.ndarray]] = []  # (first, last, is_first)
+    bounds: list[tuple[np.ndarray, np.ndarray]] = []  # (first, last) sample of each run
     for q in range(len(berms) + 1):
         stop = toe_start if q == len(berms) else np.where(berms[q][0] >= 0, berms[q][0],
                                                           toe_start)
         active = run_a >= 0
-        bounds.append((run_a.copy(), np.where(active, stop, -1), np.full(n, q == 0)))
+        bounds.append((run_a.copy(), np.where(active, stop, -1)))
         if q < len(berms):
             nb = berms[q][1]
             run_a = np.where((nb >= 0) & active, nb + 1, -1)
     # the representative slope: the first run, trimmed by position at both ends
-    ra, rb, _ = bounds[0]
+    ra, rb = bounds[0]
     top = np.maximum(np.rint(FIT_TRIM * (rb - ra)), np.rint(top_trim / step)).astype(int)
     bot = np.maximum(np.rint(FIT_TRIM * (rb - ra)), half).astype(int)
     rep_a, rep_b = ra + np.minimum(top, np.maximum(rb - ra - 3, 0) // 2), rb - bot
@@ -378,7 +378,7 @@ def read_side(s: np.ndarray, meas: np.ndarray, f: np.ndarray, crest: np.ndarray,
         cot = np.where((rep["n"] >= 3) & (rep["b"] < 0), -1.0 / rep["b"], np.nan)
         cot_se = np.where(np.isfinite(cot), rep["se"] / rep["b"] ** 2, np.nan)
     min_seg = max(int(round(1.0 / step)), 3)
-    for q, (ra, rb, _first) in enumerate(bounds):
+    for q, (ra, rb) in enumerate(bounds):
         ok = (ra >= 0) & (rb > ra)
         t = np.rint(FIT_TRIM * (rb - ra)).astype(int)
         # the first run leaves out only its rounded top (a 10 % trim of a long composite
@@ -394,12 +394,11 @@ def read_side(s: np.ndarray, meas: np.ndarray, f: np.ndarray, crest: np.ndarray,
         lft = sums.fit(a0, np.where(split, c, b0))
         rgt = sums.fit(np.where(split, c + 1, a0), b0)
         mid = np.where(split, c, -1)
-        pieces_a.append((ra, mid, ok))
+        mids.append(mid)
         piece_lines.append(((np.where(split, lft["a"], one["a"]), np.where(split, lft["b"],
                                                                            one["b"])),
                             (np.where(split, rgt["a"], np.nan), np.where(split, rgt["b"],
                                                                          np.nan))))
-        pieces_b.append(rb)
         if q == 0:
             # the crest edge lies on the top of the flank: a line over its upper
             # EDGE_FIT_LENGTH (ending at the knee where one is resolved), so a long gentle
@@ -446,10 +445,10 @@ def read_side(s: np.ndarray, meas: np.ndarray, f: np.ndarray, crest: np.ndarray,
 
     # the first break is the crest edge on the upper segment's line (set by the caller: 0)
     put(np.ones(n, bool), cur_x, crest)
-    for q, (ra, rb, _first) in enumerate(bounds):
+    for q, (ra, rb) in enumerate(bounds):
         ok = (ra >= 0) & (rb > ra)
         (a1, b1), (a2, b2) = piece_lines[q]
-        _, mid, _ = pieces_a[q]
+        mid = mids[q]
         split = mid >= 0
         with np.errstate(all="ignore"):
             c1 = np.where(b1 < 0, -1.0 / b1, np.nan)
