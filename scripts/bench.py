@@ -12,6 +12,8 @@ fresh process and repeated (the best wall time counts, the largest peak memory):
 - blocks: each internal block of the tiles that the sections touch, read once
   straight from the tile (the decompression a program cannot avoid);
 - serial: ``trajectory.assess.assess`` with one process (writes the GeoPackage);
+- lines: the same on the safety standards and frequency lines (design levels read
+  off the lines, the return period each station holds, the economic optimum);
 - pool: the same on a local process pool;
 - naive: the script a user would otherwise write, a loop over sections with
   shapely points and ``dataset.sample`` (timed on the first sections only and
@@ -196,17 +198,25 @@ def measure_blocks(paths: dict[str, str], workers: int) -> dict:
             "stations": len(st)}
 
 
-def measure_assess(paths: dict[str, str], workers: int) -> dict:
+def measure_assess(paths: dict[str, str], workers: int, *, lines: bool = False) -> dict:
+    """The whole job, GeoPackage written; with ``lines`` on the frequency lines and
+    safety standards (``standards.csv`` + ``frequency.csv``): the probability stage."""
     from trajectory.assess import RunInputs, assess
     from trajectory.params import Settings
 
     out = Path(tempfile.mkdtemp(prefix="bench_out_")) / "results.gpkg"
+    conditions = paths["standards"] if lines else paths["sections"]
+    settings = Settings(workers=workers, frequency=paths["frequency"] if lines else "")
     t, cpu0 = time.perf_counter(), _cpu()
-    res = assess(RunInputs(paths["centreline"], paths["dem"], paths["sections"]), out,
-                 Settings(workers=workers))
+    res = assess(RunInputs(paths["centreline"], paths["dem"], conditions), out, settings)
     wall, cpu = time.perf_counter() - t, _cpu() - cpu0
     counts = {k: int(v) for k, v in res.stations["status"].value_counts().items()}
     return {"wall": wall, "cpu": cpu, "stations": len(res.stations), "status": counts}
+
+
+def measure_lines(paths: dict[str, str], workers: int) -> dict:
+    """``serial`` on frequency lines and standards: what the probability stage adds."""
+    return measure_assess(paths, workers, lines=True)
 
 
 def measure_engine(paths: dict[str, str], workers: int) -> dict:
@@ -247,7 +257,8 @@ def measure_naive(paths: dict[str, str], workers: int) -> dict:
 
 
 MEASURES = {"floor": measure_floor, "floor_pool": measure_floor_pool, "blocks": measure_blocks,
-            "engine": measure_engine, "serial": measure_assess, "pool": measure_assess,
+            "engine": measure_engine, "serial": measure_assess, "lines": measure_lines,
+            "pool": measure_assess,
             "naive": measure_naive}
 
 
@@ -275,7 +286,7 @@ def _run_child(kind: str, paths: dict, workers: int) -> dict:
 # ------------------------------------------------------------------ report
 def bench(lengths: list[float], folder: Path, *, repeat: int, workers: int,
           naive: bool) -> dict:
-    kinds = ["floor", "floor_pool", "blocks", "engine", "serial", "pool"]
+    kinds = ["floor", "floor_pool", "blocks", "engine", "serial", "lines", "pool"]
     kinds += ["naive"] if naive else []
     report: dict = {"cores": workers, "repeat": repeat, "lengths": {}}
     for km in lengths:
@@ -328,6 +339,8 @@ def print_report(rep: dict) -> None:
             print(f"  {k:>7}: {v:.4f}  ({v / per_km['floor']:.2f} x floor)")
         fl = per_km["floor"]
         print(f"per km: serial / floor = {per_km['serial'] / fl:.2f} (target <= 2)")
+        print(f"per km: probability stage (lines - serial) / floor = "
+              f"{(per_km['lines'] - per_km['serial']) / fl:.3f} (target <= 0.1)")
         print(f"per km: pool / (floor / {cores}) = {per_km['pool'] / (fl / cores):.2f} "
               f"(target <= 1.2)")
         if "naive" in per_km:
