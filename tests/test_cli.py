@@ -61,3 +61,33 @@ def test_run_file_sets_parameters_and_cli_wins(demo, tmp_path):
     meta = pyogrio.read_dataframe(out, layer="run_metadata")
     kv = dict(zip(meta["key"], meta["value"], strict=True))
     assert kv["param_spacing"] == "100.0" and kv["param_watch_band"] == "0.3"
+
+
+def test_progress_bar_and_log_lines_share_the_terminal(capsys):
+    """While the bar is drawn, log lines go through tqdm.write (tqdm's own
+    ``logging_redirect_tqdm``); at 0 % no bar is drawn; closing restores the handlers."""
+    import logging
+
+    from tqdm.contrib.logging import _TqdmLoggingHandler
+
+    from trajectory.cli import _Progress
+
+    root = logging.getLogger()
+    handler = logging.StreamHandler()
+    root.addHandler(handler)
+    try:
+        bar = _Progress(quiet=False)
+        bar(0, 10)
+        assert bar.bar is None
+        bar(4, 10)
+        assert bar.bar is not None and bar.bar.n == 4
+        assert any(isinstance(h, _TqdmLoggingHandler) for h in root.handlers)
+        assert handler not in root.handlers
+        bar.close()
+        assert handler in root.handlers
+        assert not any(isinstance(h, _TqdmLoggingHandler) for h in root.handlers)
+        quiet = _Progress(quiet=True)
+        quiet(5, 10)
+        assert quiet.bar is None
+    finally:
+        root.removeHandler(handler)

@@ -6,6 +6,7 @@ library errors become one-line messages here and nowhere else.
 
 from __future__ import annotations
 
+import contextlib
 import dataclasses
 import logging
 import signal
@@ -75,23 +76,36 @@ def _epoch_inputs(config: str | None, dem: tuple[str, ...], compare: tuple[str, 
 
 
 class _Progress:
-    """Progress bar drawn by the CLI from the library's callback."""
+    """Progress bar drawn by the CLI from the library's callback.
+
+    While the bar is on screen, log lines go through it (tqdm's logging redirect),
+    so a terminal shows a clean bar under clean lines; closing it leaves nothing.
+    """
 
     def __init__(self, quiet: bool):
         self.quiet = quiet
         self.bar = None
+        self._redirect: contextlib.AbstractContextManager | None = None
 
     def __call__(self, done: int, total: int) -> None:
-        if self.quiet:
-            return
+        if self.quiet or done <= 0:
+            return  # no bar drawn at 0 %: it appears with the first finished chunk
         if self.bar is None:
             from tqdm import tqdm
-            self.bar = tqdm(total=total, unit="station", file=sys.stderr, leave=False)
+            from tqdm.contrib.logging import logging_redirect_tqdm
+            self.bar = tqdm(total=total, unit="station", file=sys.stderr, leave=False,
+                            dynamic_ncols=True)
+            self._redirect = logging_redirect_tqdm()
+            self._redirect.__enter__()
         self.bar.update(done - self.bar.n)
 
     def close(self) -> None:
         if self.bar is not None:
             self.bar.close()
+            self.bar = None
+        if self._redirect is not None:
+            self._redirect.__exit__(None, None, None)
+            self._redirect = None
 
 
 @click.group()
