@@ -25,7 +25,6 @@ from trajectory.epochs import (
     parse_dem_options,
     parse_epoch,
     projected_year,
-    run_file_inputs,
     stretch_figures,
 )
 from trajectory.uncertainty import rate_sigma
@@ -212,14 +211,6 @@ def test_parse_dem_options():
         parse_dem_options(["2019=a.tif"], ["2020=old.gpkg"])
     with pytest.raises(EpochError, match="no terrain model"):
         parse_dem_options([])
-
-
-def test_run_file_inputs_resolve_from_the_run_file(tmp_path):
-    (tmp_path / "run.toml").write_text(
-        '[inputs]\ndem = ["2019=dem_2019.tif", "2024=dem.tif"]\n[parameters]\nspacing = 50.0\n')
-    dem, compare = run_file_inputs(tmp_path / "run.toml")
-    assert dem == (f"2019={tmp_path / 'dem_2019.tif'}", f"2024={tmp_path / 'dem.tif'}")
-    assert compare == ()
 
 
 def test_station_matching_refuses_incompatible_layouts():

@@ -25,6 +25,7 @@ from click.testing import CliRunner
 from trajectory import __version__
 from trajectory.cli import assess as cli_assess
 from trajectory.cli import main
+from trajectory.input_table import INPUTS
 from trajectory.params import Settings, parameter_table
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -89,20 +90,25 @@ def test_parameter_definitions_match_params_table(qgis_python):
             assert p["type"] == "boolean"
             assert p["default"] is row["default"]
         elif row["type"] == "str":
-            # text parameters are optional file paths; "" (not given) is the table's default
-            assert p["type"] == "file" and row["default"] == ""
-            assert p["default"] in (None, "")
+            # file parameters get a file picker, other text a text field (the scheduler
+            # address is not a file); "" (not given) is the table's default
+            assert p["type"] == ("file" if row["path"] else "string"), row["name"]
+            assert row["default"] == "" and p["default"] in (None, "")
         else:
             assert (p["type"], p["data_type"]) == kinds[row["type"]]
             assert p["default"] == row["default"]
             assert p["minimum"] == row["min"]
             assert p["maximum"] == row["max"]
-    # the three front ends share one set of run-parameter names
-    io_names = {"centreline", "dem", "conditions", "out", "table"}
+    # the three front ends share one set of run-parameter and input names (the input
+    # table, trajectory.input_table); in the GIS tool a layer name comes with the layer
+    # picked, and the latest terrain model's date and earlier surveys are fields of their own
+    inputs = {s.name for s in INPUTS}
+    gis_inputs = {s.name for s in INPUTS if s.gis} | {"dem_date", "dem_earlier", "config"}
     cli_names = {p.name for p in cli_assess.params}
     settings_names = {f.name for f in dataclasses.fields(Settings)}
-    assert set(gis) - io_names == settings_names
-    assert settings_names <= cli_names and io_names <= cli_names
+    assert set(gis) == settings_names | gis_inputs
+    assert cli_names == settings_names | inputs | {"config", "overwrite", "quiet", "debug"}
+    assert {s.name for s in INPUTS if not s.gis} == {"layer", "conditions_layer"}
     run_file = Settings.from_mapping({r["name"]: r["default"] for r in table})
     assert run_file == Settings()
 
@@ -268,3 +274,65 @@ def test_report_algorithm_writes_the_same_page_as_the_cli(qgis_python, demo_resu
     gis_html, cli_html = out.read_text(), cli.read_text()
     assert "qualified engineer" in gis_html
     assert gis_html.count("data:image/png;base64") == cli_html.count("data:image/png;base64")
+
+
+# ------------------------------------------------------------- parity with the CLI
+@pytest.fixture(scope="module")
+def surveys(tmp_path_factory):
+    """The demo scenario with its earlier surveys (2019, 2021) beside the latest."""
+    from trajectory.synthetic import LeveeSpec, make_centreline, write_scenario
+
+    spec = LeveeSpec()
+    out = tmp_path_factory.mktemp("surveys")
+    return write_scenario(out, spec=spec, centreline=make_centreline(spec.length_m),
+                          epochs=True)
+
+
+@pytest.mark.slow
+def test_surveys_report_and_run_file_match_the_cli(qgis_python, surveys, tmp_path):
+    """Earlier surveys, the report and a run file: the GIS tool as the CLI."""
+    p = surveys
+    run_file = tmp_path / "run.toml"
+    run_file.write_text("[parameters]\nspacing = 50.0\nreverse = false\n")
+    gis_out = tmp_path / "gis" / "r.gpkg"
+    gis_out.parent.mkdir()
+    answer = _drive(qgis_python, "assess", json.dumps({
+        "centreline": str(p["centreline"]), "conditions": str(p["sections"]),
+        "dem": str(p["dem"]), "dem_date": "2024",
+        "dem_earlier": f"2019={p['dem_2019']}; 2021={p['dem_2021']}",
+        "config": str(run_file), "report": str(tmp_path / "gis" / "report.html"),
+        "out": str(gis_out)}))
+    assert Path(answer["result"]["report"]).is_file()
+    cli_out = tmp_path / "cli" / "r.gpkg"
+    res = CliRunner().invoke(main, [
+        "assess", "--centreline", str(p["centreline"]), "--conditions", str(p["sections"]),
+        "--dem", f"2019={p['dem_2019']}", "--dem", f"2021={p['dem_2021']}",
+        "--dem", f"2024={p['dem']}", "--spacing", "50", "--out", str(cli_out), "--quiet"])
+    assert res.exit_code == 0, res.output
+    _assert_same_layers(gis_out, cli_out)
+    st = pyogrio.read_dataframe(gis_out, layer="stations")
+    assert np.allclose(np.diff(st["chainage"]), 50.0)      # the run file's spacing
+    assert st["lowering_rate"].notna().sum() > 0.9 * len(st)  # three surveys: rates
+    for layer in ("epochs",):
+        a = pyogrio.read_dataframe(gis_out, layer=layer)
+        b = pyogrio.read_dataframe(cli_out, layer=layer)
+        assert len(a) == len(b) > 0
+
+
+@pytest.mark.slow
+def test_line_id_field_matches_the_cli(qgis_python, two_lines, tmp_path):
+    gis_out = tmp_path / "gis" / "r.gpkg"
+    gis_out.parent.mkdir()
+    _drive(qgis_python, "assess", json.dumps({
+        "centreline": str(two_lines["centreline"]), "conditions": str(two_lines["sections"]),
+        "dem": str(two_lines["dem"]), "line_id_field": "dike", "spacing": 50.0,
+        "out": str(gis_out)}))
+    cli_out = tmp_path / "cli" / "r.gpkg"
+    res = CliRunner().invoke(main, [
+        "assess", "--centreline", str(two_lines["centreline"]), "--conditions",
+        str(two_lines["sections"]), "--dem", str(two_lines["dem"]), "--line-id-field", "dike",
+        "--spacing", "50", "--out", str(cli_out), "--quiet"])
+    assert res.exit_code == 0, res.output
+    _assert_same_layers(gis_out, cli_out)
+    st = pyogrio.read_dataframe(gis_out, layer="stations")
+    assert set(st["line_id"]) == {"north-a", "north-b"}

@@ -7,43 +7,18 @@ its own chainage from 0), its conditions rows shifted to the half's chainage.
 
 from __future__ import annotations
 
-import geopandas as gpd
 import numpy as np
 import pandas as pd
 import pyogrio
 import pytest
 from click.testing import CliRunner
-from shapely.ops import substring
+from conftest import CUT
 
 from trajectory.assess import RunInputs, run
 from trajectory.cli import main
 from trajectory.errors import ConditionsError, InputError
 from trajectory.outputs.schema import LAYERS
 from trajectory.params import Settings
-
-CUT = 1500.0  # a multiple of the 25 m spacing, so the stations coincide
-
-
-@pytest.fixture(scope="module")
-def two_lines(demo, tmp_path_factory):
-    out = tmp_path_factory.mktemp("two_lines")
-    line = pyogrio.read_dataframe(demo["centreline"]).geometry.iloc[0]
-    halves = [substring(line, 0.0, CUT), substring(line, CUT, line.length)]
-    gdf = gpd.GeoDataFrame({"dike": ["north-a", "north-b"]}, geometry=halves, crs="EPSG:32632")
-    levees = out / "levees.gpkg"
-    pyogrio.write_dataframe(gdf, levees, layer="centrelines", driver="GPKG")
-    # each half's sections: the demo rows clipped to the half, chainage from 0
-    sec = pd.read_csv(demo["sections"])
-    rows = []
-    for lid, lo, hi in (("north-a", 0.0, CUT), ("north-b", CUT, line.length)):
-        part = sec[(sec["to_chainage"] > lo) & (sec["from_chainage"] < hi)].copy()
-        part["from_chainage"] = part["from_chainage"].clip(lo, hi) - lo
-        part["to_chainage"] = part["to_chainage"].clip(lo, hi) - lo
-        part.insert(0, "line_id", lid)
-        rows.append(part)
-    cond = out / "sections.csv"
-    pd.concat(rows).to_csv(cond, index=False)
-    return {"centreline": levees, "sections": cond, "dem": demo["dem"], "out": out}
 
 
 def test_each_line_has_its_own_chainage_and_the_single_line_results(two_lines, demo_result):

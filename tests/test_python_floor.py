@@ -47,8 +47,9 @@ def test_setup_refuses_an_interpreter_below_the_floor(tmp_path):
     # a stand-in interpreter that reports the version just below the floor
     major, minor = _floor()
     fake = tmp_path / "python_old"
+    below = f"{major}.{minor - 1}.0"
     fake.write_text("#!/bin/sh\n"
-                    f"case \"$*\" in *version_info*) exit 1;; -V) echo 'Python {major}.{minor - 1}.0';; esac\n"
+                    f"case \"$*\" in *version_info*) exit 1;; -V) echo 'Python {below}';; esac\n"
                     "exit 3\n")
     fake.chmod(0o755)
     cp = subprocess.run(["bash", str(ROOT / "scripts" / "setup_env.sh")],

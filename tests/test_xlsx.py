@@ -14,7 +14,7 @@ import contextlib
 import math
 import xml.etree.ElementTree as ET
 import zipfile
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 
 import numpy as np
 import pandas as pd
@@ -219,7 +219,7 @@ def test_two_writes_are_byte_identical(tmp_path):
         s = wb.style(Style(bold=True, fill="F2B701"))
         wb.add_sheet("s", [np.linspace(0, 1, 500), ["x"] * 500], head=[["a", "b"]],
                      head_styles=[s], freeze="B2", widths=[12, 14], decimals=4)
-    when = datetime(2024, 5, 1, 12, 0, tzinfo=timezone.utc)
+    when = datetime(2024, 5, 1, 12, 0, tzinfo=UTC)
     a = _save(tmp_path, build, "a.xlsx", when=when).read_bytes()
     b = _save(tmp_path, build, "b.xlsx", when=when).read_bytes()
     assert a == b

@@ -19,6 +19,7 @@ import click
 
 from . import CAUTION, __version__
 from .errors import FileOverwriteError, TrajectoryError, TrajectoryWarning
+from .input_table import INPUTS, merge_inputs
 from .params import Settings, load_run_file
 from .status import STATUSES
 
@@ -41,7 +42,9 @@ def _settings_options(fn: Callable) -> Callable:
         unit = f" [{m['unit']}]" if m["unit"] else ""
         help_text = f"{m['help']}{unit} (default: {f.default})"
         if isinstance(f.default, bool):
-            opt = click.option(flag, f.name, is_flag=True, default=None, help=help_text)
+            # --x / --no-x: either can override the run file; neither given = not given
+            opt = click.option(f"{flag}/--no-{flag[2:]}", f.name, default=None,
+                               help=help_text)
         elif m["choices"]:
             opt = click.option(flag, f.name, type=click.Choice(m["choices"]), default=None,
                                help=help_text)
@@ -64,15 +67,6 @@ def _build_settings(config: str | None, given: dict[str, Any]) -> Settings:
     values: dict[str, Any] = load_run_file(config) if config else {}
     values.update({k: v for k, v in given.items() if v is not None})
     return Settings.from_mapping(values, source=config or "command line")
-
-
-def _epoch_inputs(config: str | None, dem: tuple[str, ...], compare: tuple[str, ...]) -> tuple:
-    """Terrain models and earlier results: the options, else [inputs] of the run file."""
-    from .epochs import parse_dem_options, run_file_inputs
-
-    if config and not dem and not compare:
-        dem, compare = run_file_inputs(config)
-    return parse_dem_options(dem, compare)
 
 
 class _Progress:
@@ -114,50 +108,48 @@ def main() -> None:
     """Screen levee crest levels against the required crest level."""
 
 
+def _input_options(fn: Callable) -> Callable:
+    """Add one click option per input of the input table (:mod:`trajectory.input_table`)."""
+    for spec in reversed(INPUTS):
+        where = " (repeatable)" if spec.repeat else ""
+        fn = click.option(spec.flag, spec.name, multiple=spec.repeat, default=None,
+                          help=f"{spec.help}{where}"
+                          + (" Required, here or in the run file." if spec.required else ""))(fn)
+    return fn
+
+
 @main.command()
-@click.option("--centreline", required=True, help="Levee centreline (any OGR line format).")
-@click.option("--dem", multiple=True, help="Terrain model (any GDAL raster, VRT mosaics too); "
-              "repeat as --dem DATE=PATH for several surveys, oldest first (the last gives the "
-              "status); or a list `dem` under [inputs] in the run file.")
-@click.option("--compare", multiple=True, help="Earlier result GeoPackage of the same line as "
-              "DATE=OLD.gpkg (repeatable, oldest first); stations matched by chainage.")
-@click.option("--conditions", required=True,
-              help="Section conditions: CSV, GeoPackage table or section polygons.")
-@click.option("--conditions-layer", default=None,
-              help="Layer of the conditions file, when it has several.")
-@click.option("--out", required=True, help="Output GeoPackage.")
-@click.option("--layer", default=None, help="Line layer of the centreline file.")
-@click.option("--line-id-field", default=None,
-              help="Field telling several centrelines apart; each line gets its own chainage.")
-@click.option("--table", default=None, help="Deficit table (CSV); default: next to --out.")
-@click.option("--config", default=None, help="TOML run file with parameters.")
-@click.option("--report", "report_path", default=None,
-              help="Also write the HTML report (self-contained) to this path.")
+@_input_options
+@click.option("--config", default=None, help="TOML run file: parameters, and input files "
+              "under [inputs] (the command line wins).")
 @click.option("--overwrite", is_flag=True, help="Replace existing outputs.")
 @click.option("--quiet", is_flag=True, help="Only warnings and errors; no progress bar.")
 @click.option("--debug", is_flag=True, help="Show tracebacks and debug logs.")
 @_settings_options
-def assess(centreline: str, dem: tuple[str, ...], compare: tuple[str, ...], conditions: str,
-           conditions_layer: str | None, out: str, layer: str | None,
-           line_id_field: str | None, table: str | None, config: str | None,
-           report_path: str | None, overwrite: bool, quiet: bool, debug: bool,
-           **params: Any) -> None:
+def assess(config: str | None, overwrite: bool, quiet: bool, debug: bool,
+           **values: Any) -> None:
     """Assess a levee line and write a GeoPackage and a deficit table."""
     from .assess import RunInputs, summary
     from .assess import assess as run_assess
-    from .epochs import summary_text
+    from .epochs import parse_dem_options, summary_text
 
+    given = {s.name: values.pop(s.name) for s in INPUTS}
+    params = values
+    out = given["out"] or "the output"
     _setup_logging(quiet, debug)
     bar = _Progress(quiet)
     previous = _terminate_as_interrupt()
     try:
         settings = _build_settings(config, params)
-        dem_path, dem_date, earlier = _epoch_inputs(config, dem, compare)
-        inputs = RunInputs(centreline, dem_path, conditions, layer, dem_date=dem_date,
-                           earlier=earlier, conditions_layer=conditions_layer,
-                           line_id_field=line_id_field)
-        result = run_assess(inputs, out, settings, overwrite=overwrite, table=table,
-                            progress=bar, report=report_path,
+        io = merge_inputs(given, config)
+        out = io["out"]
+        dem_path, dem_date, earlier = parse_dem_options(io["dem"], io["compare"])
+        inputs = RunInputs(io["centreline"], dem_path, io["conditions"], io["layer"],
+                           dem_date=dem_date, earlier=earlier,
+                           conditions_layer=io["conditions_layer"],
+                           line_id_field=io["line_id_field"])
+        result = run_assess(inputs, out, settings, overwrite=overwrite, table=io["table"],
+                            progress=bar, report=io["report"],
                             read={"--config": config} if config else None)
     except FileOverwriteError as exc:
         bar.close()

@@ -34,7 +34,6 @@ import datetime as _dt
 import re
 from collections.abc import Sequence
 from dataclasses import dataclass
-from pathlib import Path
 
 import numpy as np
 
@@ -168,37 +167,6 @@ def parse_dem_options(dems: Sequence[str], compares: Sequence[str] = ()
     if latest.kind != "dem":  # pragma: no cover - the dems come last by construction
         raise EpochError("the latest survey must be a terrain model")
     return latest.path, latest.label, tuple(epochs[:-1])
-
-
-def run_file_inputs(path: str | Path) -> tuple[tuple[str, ...], tuple[str, ...]]:
-    """``dem`` and ``compare`` lists of a TOML run file's ``[inputs]`` table.
-
-    Entries are ``"DATE=PATH"`` strings (or one plain path); relative paths
-    are taken from the run file's folder.
-    """
-    import tomllib
-
-    p = Path(path)
-    try:
-        data = tomllib.loads(p.read_text(encoding="utf-8"))
-    except (OSError, tomllib.TOMLDecodeError) as exc:
-        raise EpochError(f"{p}: cannot read the run file ({exc})") from exc
-    inputs = data.get("inputs", {})
-    if not isinstance(inputs, dict):
-        raise EpochError(f"{p}: 'inputs' must be a table ([inputs])")
-    out = []
-    for key in ("dem", "compare"):
-        items = inputs.get(key, [])
-        items = [items] if isinstance(items, str) else items
-        if not isinstance(items, list) or not all(isinstance(x, str) for x in items):
-            raise EpochError(f"{p}: [inputs] {key} must be a list of \"DATE=PATH\" strings")
-        resolved = []
-        for x in items:
-            date, q = parse_epoch(x, option=key)
-            q = q if Path(q).is_absolute() else str(p.parent / q)
-            resolved.append(q if date is None else f"{date}={q}")
-        out.append(tuple(resolved))
-    return out[0], out[1]
 
 
 # ------------------------------------------------------------------ least squares

@@ -18,7 +18,7 @@ from collections import deque
 from collections.abc import Callable, Iterable, Iterator
 from concurrent.futures import Future, ProcessPoolExecutor
 from contextlib import contextmanager
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 from typing import Any, Protocol
 
 from .errors import ParameterError
@@ -46,11 +46,11 @@ def run_time() -> datetime:
     fixed = os.environ.get("SOURCE_DATE_EPOCH", "").strip()
     if fixed:
         try:
-            return datetime.fromtimestamp(int(fixed), tz=timezone.utc)
+            return datetime.fromtimestamp(int(fixed), tz=UTC)
         except ValueError as exc:
             raise ParameterError(f"SOURCE_DATE_EPOCH must be whole seconds since 1970, "
                                  f"got {fixed!r}") from exc
-    return datetime.now(timezone.utc)
+    return datetime.now(UTC)
 
 
 @contextmanager
@@ -67,7 +67,7 @@ def geopackage_write_options(iso_time: str) -> Iterator[None]:
     """
     import pyogrio
 
-    stamp = datetime.fromisoformat(iso_time).astimezone(timezone.utc)
+    stamp = datetime.fromisoformat(iso_time).astimezone(UTC)
     pyogrio.set_gdal_config_options({
         "OGR_CURRENT_DATE": stamp.strftime("%Y-%m-%dT%H:%M:%S.000Z"),
         "OGR_SQLITE_SYNCHRONOUS": "OFF"})

@@ -10,11 +10,10 @@ gets the same checks as the command line.
 from __future__ import annotations
 
 import dataclasses
+import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
-
-import tomllib
 
 from .checks import settings_consistency
 from .errors import ParameterError
@@ -30,9 +29,15 @@ def _p(
     min_exclusive: bool = False,
     choices: tuple[str, ...] | None = None,
     group: str = "geometry",
+    path: bool = False,
 ) -> Any:
-    """Declare one parameter: its default and the metadata the front ends read."""
+    """Declare one parameter: its default and the metadata the front ends read.
+
+    ``path``: a text parameter that names a file (a file picker in the GIS tool;
+    relative paths of a run file are taken from its folder); other text is text.
+    """
     meta = {
+        "path": path,
         "help": help,
         "unit": unit,
         "min": min,
@@ -77,11 +82,12 @@ class Settings:
                            unit="fraction", min=0.0, max=1.0, group="profile")
     # --- stations from a list, joining centreline parts
     stations_file: str = _p("", "File of chainages to place stations at (CSV with a `chainage` "
-                            "column, or one number a line) instead of every --spacing m.")
+                            "column, or one number a line) instead of every --spacing m.",
+                            path=True)
     structures_file: str = _p("", "Table of known structures and accepted exceptions (CSV, or "
                               "any vector file with polygons): kind, effect (exclude | "
                               "crest_level | note), chainage range or polygon; applied before "
-                              "the verdict.", group="outputs")
+                              "the verdict.", group="outputs", path=True)
     gap_tolerance: float = _p(1.0, "Gaps between centreline parts up to this are closed; "
                               "larger gaps are refused and listed.",
                               unit="m", min=0.0, max=1000.0)
@@ -93,7 +99,8 @@ class Settings:
                        group="requirement")
     frequency: str = _p("", "Frequency table (CSV or GeoPackage table): section_id, "
                         "return_period, water_level, optionally hm0 and tm10 or tp; read "
-                        "linearly in log(return period).", group="requirement")
+                        "linearly in log(return period).", group="requirement",
+                        path=True)
     extrapolate_frequency: bool = _p(False, "Allow one decade of log-linear extrapolation "
                                      "beyond a frequency table (flagged); otherwise refused.",
                                      group="requirement")
@@ -197,8 +204,14 @@ def load_run_file(path: str | Path) -> dict[str, Any]:
         raise ParameterError(f"{p}: run file not found") from exc
     except tomllib.TOMLDecodeError as exc:
         raise ParameterError(f"{p}: not valid TOML ({exc})") from exc
-    data.pop("inputs", None)  # the input files of a run file (read by the CLI)
-    return dict(data.get("parameters", data))
+    data.pop("inputs", None)  # the input files of a run file (trajectory.input_table)
+    values = dict(data.get("parameters", data))
+    # a file named in a run file is found from the run file's folder
+    paths = {f.name for f in dataclasses.fields(Settings) if f.metadata["path"]}
+    for k, v in values.items():
+        if k in paths and isinstance(v, str) and v and not Path(v).is_absolute():
+            values[k] = str(p.parent / v)
+    return values
 
 
 def validate_values(values: dict[str, Any]) -> list[str]:

@@ -330,31 +330,62 @@ def margin_with_option(cond: StationConditions, g: Geometry, rule: Rule, *,
 CLOSE_TOLERANCE = 1e-4
 
 
-def _stretch_design(cond, g, rule, opts, *, target, settle, extents, lb):
-    """One design per option over a whole stretch, sized so every station reaches target.
+def _stretch_designs(cond, g, rule, opts, *, target, settle, extents, lb, bounds):
+    """One design per option and stretch, sized so every station of it reaches target.
 
-    raise: the largest station raise; outer_berm: the widest station berm;
-    combined: a uniform added berm width (searched over 0..the widest effective one)
-    and the uniform raise still needed with it, least total fill.
+    Stretches are consecutive runs of the (concatenated) stations, ``bounds`` their
+    start indices and the end. raise: the largest station raise; outer_berm: the
+    widest station berm; combined: a uniform added berm width (searched over
+    0..the widest effective one) and the uniform raise still needed with it, least
+    total fill. All stretches and widths in one requirement call (columnar).
+    Returns ``{option: (raise per stretch, added width per stretch)}``.
     """
+    starts = bounds[:-1]
+    sizes = np.diff(bounds)
+    of = np.repeat(np.arange(sizes.size), sizes)          # stretch of each station
     level, base = rule.berm(lb)
-    designs = {"raise": (float(np.max(opts["raise"]["crest_raise"])), 0.0),
-               "outer_berm": (0.0, float(np.max(opts["outer_berm"]["berm_width"])))}
+    designs = {"raise": (np.maximum.reduceat(opts["raise"]["crest_raise"], starts),
+                         np.zeros(sizes.size)),
+               "outer_berm": (np.zeros(sizes.size),
+                              np.maximum.reduceat(opts["outer_berm"]["berm_width"], starts))}
     b_all = np.maximum(np.nan_to_num(largest_effective_berm(
         cond, g, level, approach=rule.approach, tan_alpha=rule.tan_alpha)) - base, 0.0)
-    widths = np.unique(np.concatenate([np.linspace(0.0, float(np.max(b_all, initial=0.0)), 41),
-                                       [designs["outer_berm"][1]]]))
-    best = (np.inf, 0.0, 0.0)
-    for w in widths:
-        req, _ = requirement_with(cond, g, rule, added_width=w, level=level, base_width=base)
-        need = np.maximum(req - (g.crest_level - target), 0.0)
-        dh = float(np.max(np.where(need > 0, need + settle, 0.0)))
-        area = np.sum((raise_area(np.full_like(need, dh), g) + berm_area(
-            np.full_like(need, w), level, g)) * extents)
-        if np.isfinite(area) and area < best[0] - 1e-9:
-            best = (float(area), dh, float(w))
-    designs["combined"] = (best[1], best[2])
+    b_max = np.maximum(np.maximum.reduceat(b_all, starts), 0.0)
+    # the widths tried per stretch, ascending (equal areas: the narrower berm wins)
+    widths = np.sort(np.concatenate([np.linspace(0.0, 1.0, STRETCH_WIDTHS)[None, :]
+                                     * b_max[:, None], designs["outer_berm"][1][:, None]],
+                                    axis=1), axis=1)
+    k = widths.shape[1]
+    w_st = widths[of]                                     # stations x widths
+    req, _ = requirement_with(_repeat(cond, k), _repeat(g, k), _repeat_rule(rule, k),
+                              added_width=w_st.ravel(), level=np.repeat(level, k),
+                              base_width=np.repeat(base, k))
+    need = np.maximum(req.reshape(w_st.shape) - (g.crest_level - target)[:, None], 0.0)
+    dh_st = np.where(need > 0, need + settle[:, None], 0.0)
+    dh_sw = np.maximum.reduceat(dh_st, starts, axis=0)    # stretches x widths
+    g_col = Geometry(**{k_: np.asarray(v, float)[:, None] for k_, v in g.__dict__.items()})
+    area_st = (raise_area(dh_sw[of], g_col) + berm_area(w_st, level[:, None], g_col)) \
+        * extents[:, None]
+    area_sw = np.add.reduceat(area_st, starts, axis=0)
+    area_sw = np.where(np.isfinite(area_sw), area_sw, np.inf)
+    best = np.argmin(area_sw, axis=1)
+    rows = np.arange(sizes.size)
+    found = np.isfinite(area_sw[rows, best])
+    designs["combined"] = (np.where(found, dh_sw[rows, best], 0.0),
+                           np.where(found, widths[rows, best], 0.0))
     return designs, level
+
+
+#: berm widths tried per stretch for the combined whole-stretch design (0..widest)
+STRETCH_WIDTHS = 41
+
+
+def _segment_argmin(values: np.ndarray, bounds: np.ndarray) -> np.ndarray:
+    """Index (into ``values``) of the first minimum of each segment ``bounds[i]:bounds[i+1]``."""
+    sizes = np.diff(bounds)
+    of = np.repeat(np.arange(sizes.size), sizes)
+    order = np.lexsort((np.arange(values.size), values, of))
+    return order[bounds[:-1]]
 
 
 def plan_options(
@@ -394,49 +425,60 @@ def plan_options(
     targets = np.concatenate([np.full(idx.size, 0.0 if stretches.status[i] == "deficit"
                                       else watch_band)
                               for i, idx in zip(picked, members, strict=True)])
-    all_opts = station_options(cond.take(every), _take(g, every), target_margin=targets,
-                               berm_above_swl=berm_above_swl, fill_settlement=settle[every],
-                               approach=approach, rule=rule_all.take(every))
+    nonempty = [k for k, idx in enumerate(members) if idx.size]
+    picked = [picked[k] for k in nonempty]
+    members = [members[k] for k in nonempty]
+    c_e, g_e, r_e = cond.take(every), _take(g, every), rule_all.take(every)
+    s_e, e_e = settle[every], extents[every]
+    all_opts = station_options(c_e, g_e, target_margin=targets,
+                               berm_above_swl=berm_above_swl, fill_settlement=s_e,
+                               approach=approach, rule=r_e)
     bounds = np.concatenate([[0], np.cumsum([idx.size for idx in members])])
-    for k, (i, idx) in enumerate(zip(picked, members, strict=True)):
-        if idx.size == 0:
-            continue
-        status = stretches.status[i]
-        part = slice(bounds[k], bounds[k + 1])
-        opts = {name: {key: v[part] for key, v in o.items()} for name, o in all_opts.items()}
-        c_i, g_i, r_i = cond.take(idx), _take(g, idx), rule_all.take(idx)
-        s_i, t_i, e_i = settle[idx], targets[part], extents[idx]
-        lb = c_i.water_level + c_i.sea_level_rise + berm_above_swl
-        length = float(stretches.to_chainage[i] - stretches.from_chainage[i])
-        base = {"from_chainage": float(stretches.from_chainage[i]),
-                "to_chainage": float(stretches.to_chainage[i]), "length": length,
-                "status": status, "stretch": int(i)}
-        designs, level = _stretch_design(c_i, g_i, r_i, opts, target=t_i, settle=s_i,
-                                         extents=e_i, lb=lb)
-        for name in OPTIONS:
-            # one design over the whole stretch, checked at every station
-            dh, w = designs[name]
-            after = margin_with_option(c_i, g_i, r_i, crest_raise=dh, added_width=w,
-                                       new_level=lb, fill_settlement=s_i) - t_i
-            gov = int(np.argmin(after))
-            _, gb = requirement_with(c_i, g_i, r_i, added_width=w, level=level,
-                                     base_width=r_i.berm(lb)[1])
-            area = raise_area(np.full(idx.size, dh), g_i) + berm_area(
-                np.full(idx.size, w), level, g_i)
-            rows.append({**base, "basis": "whole_stretch", "option": name,
-                         "chainage": float(chainage[idx[gov]]), "crest_raise": dh,
-                         "berm_level": float(level[gov]) if w > 0 else np.nan,
-                         "berm_width": w, "fill_volume": float(np.sum(area * e_i)),
-                         "footprint_outer": w + float(g_i.outer_slope[gov]) * dh,
-                         "footprint_inner": float(g_i.inner_slope[gov]) * dh,
-                         "gamma_b": float(gb[gov]),
-                         "closes_gap": bool(after.min() >= -CLOSE_TOLERANCE),
-                         "remaining_deficit": float(max(-after.min(), 0.0))})
-            # each station its own design, checked station by station
-            o = opts[name]
-            after = margin_with_option(c_i, g_i, r_i, crest_raise=o["crest_raise"],
+    starts, sizes = bounds[:-1], np.diff(bounds)
+    lb = c_e.water_level + c_e.sea_level_rise + berm_above_swl
+    designs, level = _stretch_designs(c_e, g_e, r_e, all_opts, target=targets, settle=s_e,
+                                      extents=e_e, lb=lb, bounds=bounds)
+    base_w = r_e.berm(lb)[1]
+    whole: dict[str, dict] = {}
+    for name in OPTIONS:
+        # one design over each whole stretch, checked at every station of it
+        dh_s, w_s = designs[name]
+        dh, w = np.repeat(dh_s, sizes), np.repeat(w_s, sizes)
+        req, gb = requirement_with(c_e, g_e, r_e, added_width=w, level=level,
+                                   base_width=base_w)
+        after = g_e.crest_level + effective_raise(dh, s_e) - req - targets
+        area = raise_area(dh, g_e) + berm_area(w, level, g_e)
+        o = all_opts[name]
+        # each station its own design, checked station by station
+        after_own = margin_with_option(c_e, g_e, r_e, crest_raise=o["crest_raise"],
                                        added_width=o["berm_width"], new_level=lb,
-                                       fill_settlement=s_i) - t_i
+                                       fill_settlement=s_e) - targets
+        whole[name] = {"dh": dh_s, "w": w_s, "after": after, "gb": gb,
+                       "volume": np.add.reduceat(area * e_e, starts),
+                       "gov": _segment_argmin(after, bounds),
+                       "after_own": np.minimum.reduceat(after_own, starts)}
+    for k, i in enumerate(picked):
+        part = slice(bounds[k], bounds[k + 1])
+        status = stretches.status[i]
+        base = {"from_chainage": float(stretches.from_chainage[i]),
+                "to_chainage": float(stretches.to_chainage[i]),
+                "length": float(stretches.to_chainage[i] - stretches.from_chainage[i]),
+                "status": status, "stretch": int(i)}
+        for name in OPTIONS:
+            d = whole[name]
+            dh, w, gov = float(d["dh"][k]), float(d["w"][k]), int(d["gov"][k])
+            worst = float(d["after"][gov])
+            rows.append({**base, "basis": "whole_stretch", "option": name,
+                         "chainage": float(chainage[every[gov]]), "crest_raise": dh,
+                         "berm_level": float(level[gov]) if w > 0 else np.nan,
+                         "berm_width": w, "fill_volume": float(d["volume"][k]),
+                         "footprint_outer": w + float(g_e.outer_slope[gov]) * dh,
+                         "footprint_inner": float(g_e.inner_slope[gov]) * dh,
+                         "gamma_b": float(d["gb"][gov]),
+                         "closes_gap": bool(worst >= -CLOSE_TOLERANCE),
+                         "remaining_deficit": float(max(-worst, 0.0))})
+            o = {key: v[part] for key, v in all_opts[name].items()}
+            own = float(d["after_own"][k])
             with np.errstate(all="ignore"):
                 rows.append({**base, "basis": "every_station", "option": name,
                              "chainage": np.nan,
@@ -445,12 +487,12 @@ def plan_options(
                              if (np.isfinite(o["berm_level"]) & (o["berm_width"] > 0)).any()
                              else np.nan,
                              "berm_width": float(np.max(o["berm_width"])),
-                             "fill_volume": float(np.sum(o["area"] * e_i)),
+                             "fill_volume": float(np.sum(o["area"] * e_e[part])),
                              "footprint_outer": float(np.max(o["footprint_outer"])),
                              "footprint_inner": float(np.max(o["footprint_inner"])),
                              "gamma_b": float(np.min(o["gamma_b"])),
-                             "closes_gap": bool(after.min() >= -CLOSE_TOLERANCE),
-                             "remaining_deficit": float(max(-after.min(), 0.0))})
+                             "closes_gap": bool(own >= -CLOSE_TOLERANCE),
+                             "remaining_deficit": float(max(-own, 0.0))})
     df = pd.DataFrame(rows, columns=list(OPTION_COLUMNS))
     if df.empty:
         return df

@@ -73,7 +73,7 @@ def validate_structures(df: pd.DataFrame, *, has_polygons: np.ndarray,
         "crest_level": _number(df, "crest_level"), "note": _text(df, "note")},
         index=df.index)
     problems = []
-    for k, (i, r) in enumerate(out.iterrows()):
+    for k, (_, r) in enumerate(out.iterrows()):
         where = f"row {k + 2}"
         if r["kind"] not in KINDS:
             problems.append(f"{where}, column kind: {r['kind']!r} is not one of "

@@ -6,24 +6,29 @@ import logging
 from pathlib import Path
 
 from qgis.core import (
-    QgsProcessing,
     QgsProcessingAlgorithm,
     QgsProcessingContext,
     QgsProcessingException,
     QgsProcessingOutputNumber,
-    QgsProcessingParameterFeatureSource,
     QgsProcessingParameterFile,
     QgsProcessingParameterFileDestination,
-    QgsProcessingParameterRasterLayer,
     QgsProcessingUtils,
 )
 
 from .. import CAUTION
 from ..errors import RunCancelled, TrajectoryError
+from ..input_table import merge_inputs
 from ..outputs.schema import LAYERS
 from ..status import STATUSES
 from .feedback import FeedbackLogHandler, FeedbackProgress
-from .parameters import help_html, settings_from_parameters, settings_parameters
+from .parameters import (
+    CONFIG,
+    help_html,
+    input_parameters,
+    settings_from_parameters,
+    settings_parameters,
+    split_entries,
+)
 
 #: result layers loaded into the project when the run ends (styles stored in the
 #: GeoPackage, if any, are applied by the host on load)
@@ -62,21 +67,10 @@ class CrestAssessAlgorithm(QgsProcessingAlgorithm):
         return CrestAssessAlgorithm()
 
     def initAlgorithm(self, config=None) -> None:
-        self.addParameter(QgsProcessingParameterFeatureSource(
-            self.CENTRELINE, "Levee centreline (line layer or file)",
-            [QgsProcessing.TypeVectorLine]))
-        self.addParameter(QgsProcessingParameterRasterLayer(
-            self.DEM, "Terrain model (raster layer or file)"))
-        self.addParameter(QgsProcessingParameterFeatureSource(
-            self.CONDITIONS, "Section conditions (table layer or CSV file)",
-            [QgsProcessing.TypeVector]))
+        for p in input_parameters():
+            self.addParameter(p)
         for p in settings_parameters():
             self.addParameter(p)
-        self.addParameter(QgsProcessingParameterFileDestination(
-            self.OUT, "Results GeoPackage", "GeoPackage (*.gpkg)"))
-        self.addParameter(QgsProcessingParameterFileDestination(
-            self.TABLE, "Deficit table (default: beside the GeoPackage)", "CSV (*.csv)",
-            optional=True, createByDefault=False))
         for status in STATUSES:
             self.addOutput(QgsProcessingOutputNumber(f"length_{status}",
                                                      f"Length {status} [m]"))
@@ -84,8 +78,10 @@ class CrestAssessAlgorithm(QgsProcessingAlgorithm):
                                                      f"Stations {status}"))
 
     # ------------------------------------------------------------------ run
-    def _inputs(self, parameters, context, feedback):
+    def _inputs(self, parameters, context, feedback) -> tuple:
+        """RunInputs and the outputs, from the dialog and the run file's [inputs]."""
         from ..assess import RunInputs
+        from ..epochs import parse_dem_options
 
         line, layer = self.parameterAsCompatibleSourceLayerPathAndLayerName(
             parameters, self.CENTRELINE, context, ["gpkg", "shp", "geojson", "fgb"],
@@ -99,26 +95,44 @@ class CrestAssessAlgorithm(QgsProcessingAlgorithm):
             raise QgsProcessingException(
                 f"the terrain model must be a file GDAL reads, not a {raster.providerType()} "
                 "layer; save it as GeoTIFF or VRT first")
-        dem = raster.source()
-        return RunInputs(str(line), str(dem), str(cond), layer or None)
+        date = self.parameterAsString(parameters, f"{self.DEM}_date", context).strip()
+        latest = f"{date}={raster.source()}" if date else raster.source()
+        earlier = split_entries(self.parameterAsString(parameters, f"{self.DEM}_earlier",
+                                                       context))
+        fields = self.parameterAsFields(parameters, "line_id_field", context)
+        given = {
+            "centreline": str(line), "layer": layer or None,
+            "line_id_field": fields[0] if fields else None,
+            "dem": (*earlier, latest),
+            "compare": split_entries(self.parameterAsString(parameters, "compare", context)),
+            "conditions": str(cond),
+            "out": self.parameterAsFileOutput(parameters, self.OUT, context),
+            "table": self.parameterAsFileOutput(parameters, self.TABLE, context) or None,
+            "report": self.parameterAsFileOutput(parameters, "report", context) or None,
+        }
+        io = merge_inputs(given, self.parameterAsFile(parameters, CONFIG, context) or None)
+        dem, dem_date, epochs = parse_dem_options(io["dem"], io["compare"])
+        inputs = RunInputs(io["centreline"], dem, io["conditions"], io["layer"],
+                           dem_date=dem_date, earlier=epochs,
+                           line_id_field=io["line_id_field"])
+        return inputs, io
 
     def processAlgorithm(self, parameters, context, feedback) -> dict:
         from ..assess import assess, summary
 
         progress = FeedbackProgress(feedback)
-        settings = settings_from_parameters(self, parameters, context)
-        inputs = self._inputs(parameters, context, feedback)
-        out = self.parameterAsFileOutput(parameters, self.OUT, context)
-        table = self.parameterAsFileOutput(parameters, self.TABLE, context) or None
         log = logging.getLogger("trajectory")
         handler = FeedbackLogHandler(feedback)
         log.addHandler(handler)
         old_level = log.level
         log.setLevel(logging.INFO)
         try:
+            settings = settings_from_parameters(self, parameters, context)
+            inputs, io = self._inputs(parameters, context, feedback)
+            out, table = io["out"], io["table"]
             progress.check()
             result = assess(inputs, out, settings, overwrite=True, table=table,
-                            progress=progress)
+                            progress=progress, report=io["report"])
         except RunCancelled as exc:
             raise QgsProcessingException(str(exc)) from exc
         except TrajectoryError as exc:
@@ -129,7 +143,8 @@ class CrestAssessAlgorithm(QgsProcessingAlgorithm):
         csv = Path(table) if table else Path(out).with_suffix(".csv")
         feedback.pushInfo(CAUTION)
         self._load_on_completion(out, context)
-        return {self.OUT: out, self.TABLE: str(csv), **summary(result)}
+        return {self.OUT: out, self.TABLE: str(csv), "report": io["report"] or "",
+                **summary(result)}
 
     def _load_on_completion(self, out: str, context: QgsProcessingContext) -> None:
         project = context.project()

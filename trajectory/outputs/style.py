@@ -14,7 +14,7 @@ GeoPackage for other clients.
 from __future__ import annotations
 
 import sqlite3
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 from pathlib import Path
 from xml.sax.saxutils import escape, quoteattr
 
@@ -141,7 +141,7 @@ def write_layer_styles(con: sqlite3.Connection, *, when: datetime | None = None)
     rerun of the same inputs writes the same bytes.
     """
     con.execute(_CREATE)
-    stamp = (when or datetime.now(timezone.utc)).astimezone(timezone.utc)
+    stamp = (when or datetime.now(UTC)).astimezone(UTC)
     now = stamp.strftime("%Y-%m-%dT%H:%M:%S.000Z")
     con.execute("INSERT OR REPLACE INTO gpkg_contents (table_name, data_type, identifier, "
                 "description, last_change) VALUES ('layer_styles', 'attributes', "

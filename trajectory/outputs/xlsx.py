@@ -22,7 +22,7 @@ import re
 import zipfile
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
 from xml.sax.saxutils import quoteattr
@@ -213,7 +213,7 @@ class Workbook:
         """
         if not self._sheets:
             raise ValueError("a workbook needs at least one sheet")
-        stamp = when.astimezone(timezone.utc) if when and when.tzinfo else when
+        stamp = when.astimezone(UTC) if when and when.tzinfo else when
         parts = [("[Content_Types].xml", _content_types(len(self._sheets))),
                  ("_rels/.rels", _root_rels()),
                  ("docProps/core.xml", _core(stamp)),
