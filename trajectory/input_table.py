@@ -34,7 +34,7 @@ class InputSpec:
     name: str
     kind: str
     help: str
-    label: str = ""               # what it is, in words (for messages and dialogs)
+    label: str                    # what it is, in words (for messages and dialogs)
     required: bool = False
     repeat: bool = False
     parent: str | None = None
@@ -58,23 +58,26 @@ class InputSpec:
 INPUTS: tuple[InputSpec, ...] = (
     InputSpec("centreline", "line", "Levee centreline (any OGR line format).",
               "levee centreline", required=True),
-    InputSpec("layer", "name", "Line layer of the centreline file.", gis=False),
+    InputSpec("layer", "name", "Line layer of the centreline file.", "centreline layer",
+              gis=False),
     InputSpec("line_id_field", "field", "Field telling several centrelines apart; each line "
-              "gets its own chainage.", parent="centreline"),
+              "gets its own chainage.", "field telling several centrelines apart",
+              parent="centreline"),
     InputSpec("dem", "raster", "Terrain model (any GDAL raster, VRT mosaics too); several "
               "surveys as DATE=PATH entries, oldest first (the last gives the status).",
               "terrain model", required=True, repeat=True),
     InputSpec("compare", "results", "Earlier result GeoPackage of the same line as "
               "DATE=OLD.gpkg entries, oldest first; stations matched by chainage.",
-              repeat=True),
+              "earlier results", repeat=True),
     InputSpec("conditions", "table", "Section conditions: CSV, GeoPackage table or section "
               "polygons.", "section conditions", required=True),
     InputSpec("conditions_layer", "name", "Layer of the conditions file, when it has several.",
-              gis=False),
+              "conditions layer", gis=False),
     InputSpec("out", "out_gpkg", "Output GeoPackage.", "output GeoPackage", required=True),
-    InputSpec("table", "out_csv", "Deficit table (CSV); default: next to the GeoPackage."),
+    InputSpec("table", "out_csv", "Deficit table (CSV); default: next to the GeoPackage.",
+              "deficit table (default: beside the GeoPackage)"),
     InputSpec("report", "out_html", "Also write the HTML report (self-contained) to this "
-              "path."),
+              "path.", "report (HTML)"),
 )
 
 BY_NAME = {s.name: s for s in INPUTS}

@@ -87,7 +87,8 @@ ENTRY_SEPARATOR = ";"
 
 
 def _input_label(spec: InputSpec) -> str:
-    return spec.help.split(";")[0].rstrip(".")
+    """Dialog label of an input: its label in words, capitalised."""
+    return spec.label[:1].upper() + spec.label[1:]
 
 
 def input_definitions(spec: InputSpec) -> list[QgsProcessingParameterDefinition]:
@@ -100,7 +101,8 @@ def input_definitions(spec: InputSpec) -> list[QgsProcessingParameterDefinition]
     opt = not spec.required
     name, text = spec.name, _input_label(spec)
     if spec.kind == "raster" and spec.repeat:
-        return [QgsProcessingParameterRasterLayer(name, f"{text} (the latest survey)"),
+        return [QgsProcessingParameterRasterLayer(name, f"{text}: the latest survey "
+                                                  "(raster layer or file)"),
                 QgsProcessingParameterString(f"{name}_date", "Date of the latest survey "
                                              "(YYYY or YYYY-MM-DD; needed with earlier ones)",
                                              optional=True),
@@ -108,8 +110,8 @@ def input_definitions(spec: InputSpec) -> list[QgsProcessingParameterDefinition]
                                              "DATE=PATH entries, oldest first, separated by ;",
                                              optional=True)]
     if spec.repeat:
-        return [QgsProcessingParameterString(name, f"{spec.help} Entries separated by ;",
-                                             optional=True)]
+        return [QgsProcessingParameterString(name, f"{text} as DATE=PATH entries, oldest "
+                                             "first, separated by ;", optional=True)]
     if spec.kind == "line":
         return [QgsProcessingParameterFeatureSource(name, f"{text} (line layer or file)",
                                                     [QgsProcessing.TypeVectorLine],
@@ -128,7 +130,12 @@ def input_definitions(spec: InputSpec) -> list[QgsProcessingParameterDefinition]
 
 def input_parameters() -> list[QgsProcessingParameterDefinition]:
     """Every input of the input table offered in the GIS tool, then the run file."""
-    out = [p for spec in INPUTS if spec.gis for p in input_definitions(spec)]
+    out = []
+    for spec in INPUTS:
+        if spec.gis:
+            for p in input_definitions(spec):
+                p.setHelp(spec.help)
+                out.append(p)
     out.append(QgsProcessingParameterFile(
         CONFIG, "Run file (TOML): parameters, and inputs under [inputs] where left empty "
         "here", extension="toml", optional=True))
