@@ -370,3 +370,16 @@ def test_report_section_is_built_from_the_geopackage(demo_result):
         (s["confidence"] == "marginal").sum())
     # the accuracy sentence gives the class recorded in the run metadata (default class)
     assert f"accuracy used: {Settings().vertical_accuracy}" in frag
+
+
+def test_marginal_ground_is_the_marginal_stations_not_their_stretch():
+    """Constructed truth: stations every 25 m; marginal ones at 75-100 m and at 225 m
+    cover half-way to their neighbours; the line's end stations stop at the end."""
+    from trajectory.outputs.report_uncertainty import marginal_runs
+
+    ch = np.arange(0.0, 301.0, 25.0)
+    marg = np.zeros(ch.size, bool)
+    marg[[3, 4, 9, 12]] = True
+    assert marginal_runs(ch, marg) == [(62.5, 112.5), (212.5, 237.5), (287.5, 300.0)]
+    assert marginal_runs(ch, np.zeros(ch.size, bool)) == []
+    assert marginal_runs(ch, np.ones(ch.size, bool)) == [(0.0, 300.0)]

@@ -29,9 +29,11 @@ TITLE = "How sure is each verdict"
 
 #: the sentence that says what a marginal verdict means (table and figure captions)
 MARGINAL_MEANS = (
-    "Hatched stretches are marginal: their status does not hold at two standard "
-    "deviations of the margin, so the survey's own accuracy could change it. Treat "
-    "them as 'check by a field survey', not as proven deficits or proven safe crest."
+    "Hatched ground is marginal: there the status does not hold at two standard "
+    "deviations of the margin, so the survey's own accuracy could change it (in the "
+    "figure each marginal station over the length it stands for; in the table the "
+    "stretches holding such stations). Treat it as 'check by a field survey', not as a "
+    "proven deficit or a proven safe crest."
 )
 
 _HATCH_CSS = ("background: repeating-linear-gradient(45deg, #ffffff, #ffffff 4px, "
@@ -88,15 +90,33 @@ def stretch_table_html(stretches: pd.DataFrame) -> str:
     return f'<table class="uncertainty">\n{head}\n' + "\n".join(rows) + "\n</table>"
 
 
+def marginal_runs(chainage: np.ndarray, marginal: np.ndarray) -> list[tuple[float, float]]:
+    """Chainage ranges of consecutive marginal stations, each station over the length it
+    stands for (half-way to its neighbours; the line's ends at the end stations)."""
+    ch = np.asarray(chainage, float)
+    if ch.size == 0:
+        return []
+    mid = 0.5 * (ch[1:] + ch[:-1])
+    lo = np.concatenate([[ch[0]], mid])
+    hi = np.concatenate([mid, [ch[-1]]])
+    flag = np.concatenate([[False], np.asarray(marginal, bool), [False]])
+    starts = np.flatnonzero(flag[1:] & ~flag[:-1])
+    ends = np.flatnonzero(~flag[1:] & flag[:-1]) - 1
+    return [(float(lo[a]), float(hi[b])) for a, b in zip(starts, ends, strict=True)]
+
+
 def margin_figure(stations: pd.DataFrame, stretches: pd.DataFrame) -> Figure:
-    """Margin along the chainage with its +- 2 sigma band; marginal stretches hatched."""
+    """Margin along the chainage with its +- 2 sigma band; marginal ground hatched (the
+    marginal stations, not whole stretches: one doubtful station does not make a
+    kilometre doubtful)."""
     ch = stations["chainage"].to_numpy(float)
     m = stations["margin"].to_numpy(float)
     sig = stations["margin_sigma"].to_numpy(float)
     fig = new_figure(10.0, 3.6)
     ax = fig.add_subplot()
-    marginal = stretches[stretches["confidence"].astype(str) == "marginal"]
-    for a, b in zip(marginal["from_chainage"], marginal["to_chainage"], strict=True):
+    conf = (stations["confidence"].astype(str).to_numpy() if "confidence" in stations
+            else np.full(ch.size, ""))
+    for a, b in marginal_runs(ch, conf == "marginal"):
         ax.axvspan(a, b, facecolor="none", edgecolor="0.55", hatch="///", linewidth=0)
     ax.fill_between(ch, m - FIRM_SIGMAS * sig, m + FIRM_SIGMAS * sig, color="0.8",
                     label=f"margin ± {FIRM_SIGMAS:g} σ")
@@ -107,7 +127,7 @@ def margin_figure(stations: pd.DataFrame, stretches: pd.DataFrame) -> Figure:
     ax.grid(alpha=0.3, lw=0.4)
     handles, labels = ax.get_legend_handles_labels()
     handles.append(Patch(facecolor="none", edgecolor="0.55", hatch="///"))
-    labels.append("marginal stretch")
+    labels.append("marginal ground")
     fig.legend(handles, labels, fontsize=7, ncol=4, loc="outside upper center",
                frameon=False)
     if ch.size:
