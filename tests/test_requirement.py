@@ -25,6 +25,7 @@ from trajectory.requirement import (
     StationConditions,
     profile_berm,
     required_level,
+    required_level_values,
     station_conditions,
 )
 
@@ -175,6 +176,26 @@ def test_every_method_is_selectable():
     r = _req(c)
     assert np.isfinite(r.freeboard).all()
     assert list(r.freeboard_method) == list(METHODS)
+
+
+def test_the_level_alone_is_the_full_computations_level():
+    """required_level_values is required_level without its audit terms: equal numbers
+    for every method, with and without berms, waves, slopes (NaN where either is)."""
+    rng = np.random.default_rng(5)
+    n = 400
+    method = rng.choice(np.array(METHODS, dtype=object), n)
+    c = _cond(n, method=method, fixed_freeboard=rng.uniform(0.3, 2.0, n),
+              hm0=np.where(rng.random(n) < 0.1, np.nan, rng.uniform(0.2, 3.0, n)),
+              tm10=rng.uniform(3.0, 9.0, n), min_freeboard=rng.choice([0.0, 0.9], n),
+              near_structure=rng.random(n) < 0.3, upstream_share=rng.random(n))
+    kw = dict(outer_slope=np.where(rng.random(n) < 0.05, np.nan, rng.uniform(1.5, 6.0, n)),
+              crest_level=rng.uniform(6.0, 12.0, n), approach="design",
+              berm_width=np.where(rng.random(n) < 0.5, rng.uniform(1.0, 20.0, n), np.nan),
+              berm_level=rng.uniform(4.0, 6.0, n))
+    full = required_level(c, **kw).required_level
+    alone = required_level_values(c, **kw)
+    np.testing.assert_array_equal(alone, full)
+    assert np.isfinite(full).sum() > 0.8 * n
 
 
 def test_no_slope_gives_no_number():

@@ -69,12 +69,21 @@ def section_economics(stations: pd.DataFrame, table: pd.DataFrame, *,
         "crest_level", "crest_width", "outer_slope", "inner_slope", "outer_toe_level",
         "inner_toe_level")))
     area = raise_area(np.ones(len(stations)), geom)
+    # the columns once, and each section's stations by one sort (not a scan per section)
+    col = {c: stations[c].to_numpy(float) for c in (
+        "return_period_held", "rise_per_decade", "crest_level", "standard_return_period",
+        "chainage", "standard_level")}
+    held_range = stations["held_range"].to_numpy(object)
+    order = np.argsort(sid.astype(str), kind="stable")
+    keys, first = np.unique(sid.astype(str)[order], return_index=True)
+    groups = dict(zip(keys, np.split(order, first[1:]), strict=True))
     rows = []
     for r in use.itertuples(index=False):
-        at = np.flatnonzero(sid == r.section_id)
-        if at.size == 0:
+        at = groups.get(str(r.section_id))
+        if at is None or at.size == 0:
             continue
-        held = stations["return_period_held"].to_numpy(float)[at]
+        at = np.sort(at)
+        held = col["return_period_held"][at]
         if not np.isfinite(held).any():
             continue
         w = at[int(np.nanargmin(held))]
@@ -83,23 +92,23 @@ def section_economics(stations: pd.DataFrame, table: pd.DataFrame, *,
         a_ok = np.isfinite(area[at])
         i_prime = (unit_cost * float(np.sum(area[at][a_ok] * extents[at][a_ok]))
                    + fixed * float(np.sum(extents[at])) / 1000.0)
-        alpha = alpha_from_rise(stations["rise_per_decade"].to_numpy(float)[at])
+        alpha = alpha_from_rise(col["rise_per_decade"][at])
         alpha = float(np.nanmedian(alpha)) if np.isfinite(alpha).any() else np.nan
-        t_held = float(stations["return_period_held"].iloc[w])
-        in_range = stations["held_range"].iloc[w] in ("within", "extrapolated")
+        t_held = float(col["return_period_held"][w])
+        in_range = held_range[w] in ("within", "extrapolated")
         p0 = 1.0 / t_held if in_range else np.nan
         x, p_star = van_dantzig(alpha=alpha, damage=r.flood_damage, p0=p0,
                                 delta=r.discount_rate, i_prime=i_prime)
         if i_prime <= 0:
             log.warning("section %r: no cost of raising (give --fill-unit-cost or "
                         "raise_fixed_cost), so no economic optimum", r.section_id)
-        crest = float(stations["crest_level"].iloc[w])
+        crest = float(col["crest_level"][w])
         rows.append({
             "line_id": line_id, "section_id": r.section_id,
-            "standard_return_period": float(stations["standard_return_period"].iloc[w]),
-            "weakest_chainage": float(stations["chainage"].iloc[w]),
+            "standard_return_period": float(col["standard_return_period"][w]),
+            "weakest_chainage": float(col["chainage"][w]),
             "return_period_held": t_held, "crest_level": crest,
-            "standard_level": float(stations["standard_level"].iloc[w]),
+            "standard_level": float(col["standard_level"][w]),
             "flood_damage": float(r.flood_damage), "discount_rate": float(r.discount_rate),
             "alpha": alpha, "marginal_cost": i_prime,
             "optimal_raise": float(np.maximum(x, 0.0)) if np.isfinite(x) else np.nan,

@@ -18,7 +18,7 @@ from typing import Any
 import numpy as np
 
 from .frequency import Lines
-from .requirement import StationConditions, required_level
+from .requirement import StationConditions, required_level_values
 
 #: the root-find stops when the crest and the requirement agree to this (m)
 LEVEL_TOLERANCE = 1e-4
@@ -62,7 +62,7 @@ class _Requirement:
         c = _conditions_at(self.cond.take(rows), self.lines.take(rows), t,
                            self.allowances[rows])
         kw = {k: v[rows] for k, v in self.profile.items()}
-        return required_level(c, approach=self.approach, **kw).required_level
+        return required_level_values(c, approach=self.approach, **kw)
 
 
 def solve_held(req: _Requirement, target: np.ndarray, lo: np.ndarray,
@@ -132,7 +132,8 @@ def station_held(lines: Lines, cond: StationConditions, *, crest_level: np.ndarr
     crest_level, crest_sigma : ndarray
         Measured crest and the margin's standard deviation (uncertainty.py).
     profile
-        ``outer_slope``, ``tan_alpha``, berm keywords for :func:`required_level`.
+        ``outer_slope``, ``tan_alpha``, berm keywords for
+        :func:`~trajectory.requirement.required_level`.
 
     Returns
     -------

@@ -24,7 +24,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, cast
 
 import numpy as np
 import pandas as pd
@@ -175,12 +175,43 @@ def required_level(
     -------
     Requirement
     """
+    out = _requirement(cond, outer_slope=outer_slope, crest_level=crest_level,
+                       approach=approach, tan_alpha=tan_alpha, berm_width=berm_width,
+                       berm_level=berm_level, audit=True)
+    return cast(Requirement, out)
+
+
+def required_level_values(
+    cond: StationConditions, *, outer_slope: np.ndarray, crest_level: np.ndarray,
+    approach: str = "design", tan_alpha: np.ndarray | None = None,
+    berm_width: np.ndarray | None = None, berm_level: np.ndarray | None = None,
+) -> np.ndarray:
+    """The required crest level alone, as :func:`required_level` computes it.
+
+    The same computation without the audit terms (discharge at the crest, breaker
+    parameter, validity flags, rule names): for solvers that evaluate the
+    requirement many times (the return period a crest holds, held.py).
+    """
+    out = _requirement(cond, outer_slope=outer_slope, crest_level=crest_level,
+                       approach=approach, tan_alpha=tan_alpha, berm_width=berm_width,
+                       berm_level=berm_level, audit=False)
+    return cast(np.ndarray, out)
+
+
+def _requirement(
+    cond: StationConditions, *, outer_slope: np.ndarray, crest_level: np.ndarray,
+    approach: str, tan_alpha: np.ndarray | None, berm_width: np.ndarray | None,
+    berm_level: np.ndarray | None, audit: bool,
+) -> Requirement | np.ndarray:
+    """:func:`required_level` (``audit``) or :func:`required_level_values`."""
     wl = np.asarray(cond.water_level, dtype=float)
     n = wl.size
     hm0 = _full(cond.hm0, n)
     tm10 = _full(cond.tm10, n)
     method = (np.full(n, "overtopping", dtype=object) if cond.method is None
               else _full(cond.method, n, object))
+    is_m = {m: method == m for m in ("overtopping", "runup", "constant", "cfr_riverine",
+                                      "cfr_coastal")}
     slope = _full(outer_slope, n)
     with np.errstate(divide="ignore", invalid="ignore"):
         tan_a = (1.0 / slope) if tan_alpha is None else _full(tan_alpha, n)
@@ -217,9 +248,6 @@ def required_level(
     ru = _full(hy.runup_2pct(h, t, ta, gamma_b=g_b, gamma_f=g_f, gamma_beta=g_beta_ru,
                              approach=approach), n)
     ru = np.where(waves & np.isfinite(tan_a), ru, np.nan)
-    q = _full(hy.overtopping_discharge(np.nan_to_num(crest_level - swl, nan=0.0), h, t, ta,
-                                       **kw), n) * LPS_PER_M3S
-    q = np.where(waves & np.isfinite(tan_a) & np.isfinite(crest_level), q, np.nan)
     # fixed freeboards: constant per section, or 44 CFR 65.10 in feet, exactly converted
     fixed = (np.full(n, np.nan) if cond.fixed_freeboard is None
              else _full(cond.fixed_freeboard, n))
@@ -233,18 +261,25 @@ def required_level(
     with np.errstate(invalid="ignore"):
         wave_or_runup = np.fmax(H1PCT_OVER_HM0 * np.where(waves, hm0, np.nan), ru)
     fixed_m = np.select(
-        [method == "constant", method == "cfr_riverine", method == "cfr_coastal"],
+        [is_m["constant"], is_m["cfr_riverine"], is_m["cfr_coastal"]],
         [fixed, riv_ft * hy.FOOT, wave_or_runup + coast.margin_m], np.nan)
-    fixed_ft = np.select([method == "cfr_riverine", method == "cfr_coastal"],
-                         [riv_ft, wave_or_runup / hy.FOOT + coast.margin_ft], np.nan)
-    fb_m = np.select([method == "overtopping", method == "runup"], [fb_e, ru], fixed_m)
+    fb_m = np.select([is_m["overtopping"], is_m["runup"]], [fb_e, ru], fixed_m)
     # outside the valid geometry (no outer slope) the hydraulic rules have no answer
     min_fb = _full(cond.min_freeboard, n)
     with np.errstate(invalid="ignore"):
         fb = np.where(np.isfinite(fb_m), np.maximum(fb_m, min_fb), np.nan)
+    req = swl + fb + cond.settlement
+    if not audit:
+        return req
+    # the audit terms: which rule governs, discharge at the crest, validity
+    with np.errstate(invalid="ignore"):
         rule = np.where(fb_m >= min_fb, method, "minimum").astype(object)
     rule = np.where(np.isfinite(fb_m), rule, "").astype(object)
-    req = swl + fb + cond.settlement
+    fixed_ft = np.select([is_m["cfr_riverine"], is_m["cfr_coastal"]],
+                         [riv_ft, wave_or_runup / hy.FOOT + coast.margin_ft], np.nan)
+    q = _full(hy.overtopping_discharge(np.nan_to_num(crest_level - swl, nan=0.0), h, t, ta,
+                                       **kw), n) * LPS_PER_M3S
+    q = np.where(waves & np.isfinite(tan_a) & np.isfinite(crest_level), q, np.nan)
     xi = np.where(waves & np.isfinite(tan_a),
                   _full(hy.breaker_parameter(ta, np.where(h > 0, h, 1.0), t), n), np.nan)
     xi = np.where(h > 0, xi, np.nan)
