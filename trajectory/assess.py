@@ -461,7 +461,7 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
     meta.update(_epoch_metadata(levels, inputs))
     known = None
     if pl.structures is not None:
-        known = structure_table(pl.structures, [match])
+        known = structure_table(pl.structures, [] if match is None else [match])
         meta.update(_structure_metadata(s.structures_file, known))
     res = Result(stations=table, stretches=stretches, line=line, crs=crs, offsets=offsets,
                  profiles=profiles, metadata=meta, epochs=levels, options=options,
@@ -529,7 +529,8 @@ def _combine(runs: list[_LineRun], ids: list[str]) -> Result:
     meta["line_length"] = round(sum(r.line.length for r in runs), 3)
     levels = rs[0].epochs
     if levels is not None:
-        levels = dataclasses.replace(levels, crest=np.vstack([r.epochs.crest for r in rs]))
+        levels = dataclasses.replace(levels, crest=np.vstack(
+            [r.epochs.crest for r in rs if r.epochs is not None]))
     return Result(
         stations=pd.concat([r.stations for r in rs], ignore_index=True),
         stretches=stack_stretches([r.stretches for r in rs], [r.stations for r in runs]),

@@ -78,7 +78,7 @@ class _Progress:
 
     def __init__(self, quiet: bool):
         self.quiet = quiet
-        self.bar = None
+        self.bar: Any = None
         self._redirect: contextlib.AbstractContextManager | None = None
 
     def __call__(self, done: int, total: int) -> None:
@@ -176,8 +176,8 @@ def assess(config: str | None, overwrite: bool, quiet: bool, debug: bool,
              s["length_excluded"])
     if result.epochs is not None:
         st = result.stations
-        line = summary_text(result.epochs.labels, st["rate_significant"], st["projected_year"],
-                            st["margin"])
+        line = summary_text(result.epochs.labels, st["rate_significant"].to_numpy(),
+                            st["projected_year"].to_numpy(), st["margin"].to_numpy())
         if line:
             log.info(line)
     log.info(CAUTION)

@@ -161,7 +161,9 @@ def parse_dem_options(dems: Sequence[str], compares: Sequence[str] = ()
     if undated:
         raise EpochError(f"with several surveys each needs its date: write DATE=PATH, e.g. "
                          f"--dem 2024={undated[0]} (undated: {', '.join(undated)})")
-    epochs = [Epoch(d, p, "result") for d, p in old] + [Epoch(d, p, "dem") for d, p in parsed]
+    # every entry is dated here (the undated were refused above)
+    epochs = ([Epoch(str(d), p, "result") for d, p in old]
+              + [Epoch(str(d), p, "dem") for d, p in parsed])
     check_order([e.label for e in epochs], [e.path for e in epochs])
     latest = epochs[-1]
     if latest.kind != "dem":  # pragma: no cover - the dems come last by construction
@@ -217,7 +219,8 @@ def projected_year(margin: np.ndarray, lowering_rate: np.ndarray, significant: n
 
 
 def assess_epochs(years: np.ndarray, crest: np.ndarray, margin: np.ndarray, *,
-                  vertical_accuracy: float = 0.05, rate_z: float = 1.645) -> EpochStations:
+                  vertical_accuracy: float | np.ndarray = 0.05,
+                  rate_z: float = 1.645) -> EpochStations:
     """Change, lowering rate, significance and projected year for every station.
 
     Parameters

@@ -145,7 +145,7 @@ def merge_inputs(given: dict[str, Any], run_file: str | Path | None) -> dict[str
         v = given.get(spec.name)
         if v is None or (spec.repeat and len(v) == 0):
             v = from_file.get(spec.name, () if spec.repeat else None)
-        merged[spec.name] = tuple(v) if spec.repeat else v
+        merged[spec.name] = tuple(v or ()) if spec.repeat else v
     # an empty text given on purpose (--out "") is left to the checks that name it
     missing = [s for s in INPUTS if s.required and merged[s.name] in (None, ())]
     if missing:

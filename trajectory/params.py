@@ -241,7 +241,7 @@ def _type_name(f: dataclasses.Field) -> str:
 
 
 def _coerce(f: dataclasses.Field, v: Any, source: str) -> Any:
-    kind = type(f.default)
+    kind: type = type(f.default)
     try:
         if kind is bool:
             if isinstance(v, str):

@@ -11,6 +11,7 @@ from __future__ import annotations
 import contextlib
 import errno
 import os
+from collections.abc import Mapping
 from pathlib import Path
 
 from ..errors import OutputError
@@ -45,7 +46,7 @@ def _folder_problem(p: Path, role: str) -> str | None:
     return None
 
 
-def check_targets(outputs: dict[str, Path], inputs: dict[str, str | Path]) -> None:
+def check_targets(outputs: dict[str, Path], inputs: Mapping[str, str | Path]) -> None:
     """Refuse outputs that would replace an input or each other, or that cannot be written.
 
     Parameters
