@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
+from trajectory.conditions import refresh_readme_tables
 from trajectory.outputs.schema import LAYERS, refresh_readme
 
 README = Path(__file__).resolve().parents[1] / "README.md"
@@ -28,6 +29,10 @@ def test_contract_fields_present():
 def test_readme_field_tables_are_current():
     text = README.read_text(encoding="utf-8")
     assert refresh_readme(text) == text, "run: python -m trajectory.outputs.schema README.md"
+    # the conditions columns too, from their one declaration (trajectory.conditions)
+    assert refresh_readme_tables(text) == text, \
+        "run: python -m trajectory.outputs.schema README.md"
+    assert "<!-- conditions:sections -->" in text and "<!-- conditions:lines -->" in text
     assert "qualified engineer" in text
 
 

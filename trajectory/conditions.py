@@ -32,38 +32,78 @@ from .requirement import METHODS, WAVE_METHODS
 
 log = logging.getLogger(__name__)
 
-#: Columns every conditions table needs: name -> (unit, rule). The README quotes them.
+#: Columns every conditions table needs: name -> (unit, rule). The README's tables are
+#: generated from these (:func:`refresh_readme_tables`).
 CONDITION_COLUMNS: dict[str, tuple[str, str]] = {
     "section_id": ("", "text, unique"),
-    "from_chainage": ("m", "number (not needed for section polygons)"),
-    "to_chainage": ("m", "number > from_chainage (not needed for section polygons)"),
-    "water_level": ("m (DEM datum)", "number; design water level (at from_chainage); may be "
-                                     "empty where a frequency line and a standard give it"),
-    "sea_level_rise": ("m", "0 <= number <= 10"),
-    "settlement": ("m", "0 <= number <= 10"),
+    "from_chainage": ("m", "number; start of the section's chainage range (not for section "
+                           "polygons)"),
+    "to_chainage": ("m", "number > from_chainage; its end (not for section polygons)"),
+    "water_level": ("m (DEM datum)", "number; design still-water level (at from_chainage); "
+                                     "may be empty where a frequency line and a standard "
+                                     "give it"),
+    "sea_level_rise": ("m", "0 <= number <= 10; sea-level-rise allowance"),
+    "settlement": ("m", "0 <= number <= 10; settlement allowance of the subsoil (extra "
+                        "construction height)"),
 }
-#: Optional columns; which of them a row needs depends on its freeboard_method.
-OPTIONAL_COLUMNS: dict[str, tuple[str, str]] = {
-    "water_side": ("", "left or right (relative to the digitised direction)"),
+#: Optional columns of the crest assessment; which a row needs depends on its method.
+SECTION_COLUMNS: dict[str, tuple[str, str]] = {
+    "water_side": ("", "left or right of the digitised direction; overrides --water-side"),
     "freeboard_method": ("", "one of " + ", ".join(METHODS) + " (empty: overtopping)"),
     "water_level_end": ("m (DEM datum)", "number; design water level at to_chainage, "
-                                         "interpolated linearly between"),
-    "hm0": ("m", "0 <= number <= 30; needed by overtopping, runup, cfr_coastal"),
+                                         "interpolated linearly between (a river gradient; "
+                                         "for polygons between the first and last station "
+                                         "in the polygon)"),
+    "hm0": ("m", "0 <= number <= 30; spectral significant wave height Hm0 at the toe; needed "
+                 "by overtopping, runup, cfr_coastal"),
     "tm10": ("s", "0 < number <= 60; spectral period Tm-1,0 (give tm10 or tp)"),
     "tp": ("s", "0 < number <= 60; peak period, Tm-1,0 = Tp / 1.1 (give tm10 or tp)"),
-    "wave_angle": ("degrees", "0 <= number <= 90 (wave direction vs levee normal; empty: 0)"),
-    "q_allow": ("l/s per m", "0 < number <= 10000; needed by overtopping"),
-    "roughness": ("-", "0 < number <= 1 or a revetment name (empty: 1.0)"),
-    "min_freeboard": ("m", "0 <= number <= 20 (empty: 0)"),
-    "fixed_freeboard": ("m", "0 <= number <= 20; needed by constant"),
-    "near_structure": ("", "yes or no; cfr_riverine: within 100 ft of a structure"),
+    "wave_angle": ("degrees", "0 <= number <= 90; wave direction vs levee normal (empty: 0)"),
+    "q_allow": ("l/s per m", "0 < number <= 10000; allowed mean overtopping discharge; "
+                             "needed by overtopping"),
+    "roughness": ("-", "0 < number <= 1 (gamma_f), or a revetment name from the table "
+                       "below (empty: 1.0)"),
+    "min_freeboard": ("m", "0 <= number <= 20; lower bound of the freeboard (empty: 0)"),
+    "fixed_freeboard": ("m", "0 <= number <= 20; the freeboard of constant"),
+    "near_structure": ("", "yes or no; cfr_riverine: within 100 ft of a structure or "
+                           "constriction"),
     "upstream_share": ("-", "0 <= number <= 1; cfr_riverine: share of the 0.5 ft "
                             "upstream-end allowance at from_chainage"),
-    "upstream_share_end": ("-", "0 <= number <= 1; the share at to_chainage"),
+    "upstream_share_end": ("-", "0 <= number <= 1; the share at to_chainage, interpolated "
+                                "linearly between"),
     "fill_settlement": ("m", "0 <= number <= 10; settlement allowance of new fill for the "
                              "reinforcement options (empty: 0)"),
-    **LINE_COLUMNS,
 }
+#: The README's conditions tables, by marker name (``<!-- conditions:NAME -->``).
+README_TABLES: dict[str, dict[str, tuple[str, str]]] = {
+    "sections": {**CONDITION_COLUMNS, **SECTION_COLUMNS},
+    "lines": LINE_COLUMNS,
+}
+#: Optional columns (all but the required ones).
+OPTIONAL_COLUMNS: dict[str, tuple[str, str]] = {
+    k: v for table in README_TABLES.values() for k, v in table.items()
+    if k not in CONDITION_COLUMNS}
+
+
+def conditions_markdown(name: str) -> str:
+    """The README table of the conditions columns of group ``name``."""
+    rows = ["| column | unit | rule |", "|---|---|---|"]
+    for col, (unit, rule) in README_TABLES[name].items():
+        need = "" if col in CONDITION_COLUMNS else " (optional)"
+        rows.append(f"| `{col}`{need} | {unit} | {rule} |")
+    return "\n".join(rows)
+
+
+def refresh_readme_tables(text: str) -> str:
+    """Rewrite the tables between ``<!-- conditions:NAME -->`` and ``<!-- /conditions -->``."""
+    import re
+
+    def table(match: re.Match) -> str:
+        return (f"<!-- conditions:{match[1]} -->\n{conditions_markdown(match[1])}\n"
+                "<!-- /conditions -->")
+
+    return re.sub(r"<!-- conditions:(\w+) -->.*?<!-- /conditions -->", table, text,
+                  flags=re.S)
 _NUMERIC_RULES: dict[str, tuple[float | None, float | None, bool]] = {
     # column: (min, max, min exclusive)
     "from_chainage": (None, None, False),

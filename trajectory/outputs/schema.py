@@ -372,5 +372,8 @@ if __name__ == "__main__":  # python -m trajectory.outputs.schema README.md
     import sys
     from pathlib import Path
 
+    from ..conditions import refresh_readme_tables
+
     p = Path(sys.argv[1])
-    p.write_text(refresh_readme(p.read_text(encoding="utf-8")), encoding="utf-8")
+    text = refresh_readme(p.read_text(encoding="utf-8"))
+    p.write_text(refresh_readme_tables(text), encoding="utf-8")
