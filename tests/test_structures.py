@@ -153,3 +153,25 @@ def test_a_bad_structures_file_is_a_one_line_error(demo, tmp_path):
     assert res.exit_code == EXIT_INPUT
     assert "row 2, column kind: 'wall'" in res.output and "Traceback" not in res.output
     assert not (tmp_path / "r.gpkg").exists()
+
+
+def test_a_given_crest_level_is_what_holds_the_return_period(demo, tmp_path):
+    """Where a structure gives the crest (a wall's top), the return period held is that
+    of the given crest: a crest above the level that holds the standard today holds more
+    than the standard, below it less (the held solver's own definition, held.py)."""
+    out = tmp_path / "r.gpkg"
+    res = CliRunner().invoke(main, [
+        "assess", "--centreline", str(demo["centreline"]), "--dem", str(demo["dem"]),
+        "--conditions", str(demo["standards"]), "--frequency", str(demo["frequency"]),
+        "--structures-file", str(demo["structures"]), "--out", str(out), "--quiet"])
+    assert res.exit_code == 0, res.output
+    st = pyogrio.read_dataframe(out, layer="stations", read_geometry=False)
+    wall = st[(st["structure_effect"] == "crest_level") & (st["held_range"] == "within")]
+    assert len(wall) >= 2
+    above = wall["crest_level"] > wall["standard_level"]
+    holds = wall["return_period_held"] >= wall["standard_return_period"]
+    assert (above == holds).all()
+    # and the stations without a structure keep the same relation
+    plain = st[(st["structure_effect"] == "") & (st["held_range"] == "within")]
+    assert ((plain["crest_level"] > plain["standard_level"])
+            == (plain["return_period_held"] >= plain["standard_return_period"])).all()

@@ -410,6 +410,7 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
         cols["crest_level"] = np.where(given, match.crest_level, cols["crest_level"])
         cols["margin"] = np.where(given, cols["crest_level"] - cols["required_level"],
                                   cols["margin"])
+        _held_at_given_crest(cols, given, lines, gathered, s.approach)
     status = classify(cols["margin"], watch_band=s.watch_band)
     if match is not None:
         status[match.effect == "exclude"] = EXCLUDED
@@ -476,6 +477,28 @@ def _wgs84(crs: CRS, x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarr
     tr = Transformer.from_crs(crs, CRS.from_epsg(4326), always_xy=True)
     lon, lat = tr.transform(np.asarray(x, float), np.asarray(y, float))
     return np.asarray(lon, float), np.asarray(lat, float)
+
+
+def _held_at_given_crest(cols: dict[str, np.ndarray], given: np.ndarray, lines: Lines,
+                         cond: StationConditions, approach: str) -> None:
+    """The return periods held where a structure gives the crest level (in place).
+
+    The chunk worked them out on the terrain's crest; a wall's top is what holds.
+    The same call as in the chunk, on the given crest, for those stations only.
+    """
+    idx = np.flatnonzero(given & lines.has_line)
+    if idx.size == 0:
+        return
+    with np.errstate(divide="ignore"):
+        tan_c = 1.0 / cols["characteristic_slope"][idx]
+    held = station_held(lines.take(idx), cond.take(idx), crest_level=cols["crest_level"][idx],
+                        crest_sigma=cols["margin_sigma"][idx], approach=approach,
+                        outer_slope=cols["outer_slope"][idx], tan_alpha=tan_c,
+                        berm_width=cols["outer_berm_width"][idx],
+                        berm_level=cols["outer_berm_level"][idx])
+    for k, v in held.items():
+        cols[k] = np.array(cols[k], dtype=np.result_type(cols[k], np.asarray(v)))
+        cols[k][idx] = v
 
 
 def _structure_columns(table: pd.DataFrame, ground_crest: np.ndarray,
