@@ -334,9 +334,15 @@ def print_report(rep: dict) -> None:
         # cost per km above start-up: the slope between the shortest and longest line
         dkm = ks[-1] - ks[0]
         per_km = {k: (z[k]["wall"] - a[k]["wall"]) / dkm for k in z}
-        print(f"\ncost per km above start-up ({ks[0]:g} -> {ks[-1]:g} km), s/km:")
+        cpu_km = {k: (z[k]["cpu"] - a[k]["cpu"]) / dkm for k in z}
+        print(f"\ncost per km above start-up ({ks[0]:g} -> {ks[-1]:g} km), s/km "
+              "(wall; CPU beside it, steadier on a shared machine):")
         for k, v in per_km.items():
-            print(f"  {k:>7}: {v:.4f}  ({v / per_km['floor']:.2f} x floor)")
+            print(f"  {k:>7}: {v:.4f}  ({v / per_km['floor']:.2f} x floor)   CPU "
+                  f"{cpu_km[k]:.4f} ({cpu_km[k] / cpu_km['floor']:.2f} x floor)")
+        print(f"per km CPU: serial / floor = {cpu_km['serial'] / cpu_km['floor']:.2f}; "
+              f"probability stage / floor = "
+              f"{(cpu_km['lines'] - cpu_km['serial']) / cpu_km['floor']:.3f}")
         fl = per_km["floor"]
         print(f"per km: serial / floor = {per_km['serial'] / fl:.2f} (target <= 2)")
         print(f"per km: probability stage (lines - serial) / floor = "
