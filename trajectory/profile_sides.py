@@ -88,19 +88,22 @@ class _Sums:
     """Prefix sums of weighted x, z, x^2, xz, z^2 along rows, for fits of any sub-run."""
 
     def __init__(self, x: np.ndarray, z: np.ndarray, w: np.ndarray) -> None:
-        zero = np.zeros((z.shape[0], 1))
-        terms = (w, w * x, w * z, w * x * x, w * x * z, w * z * z)
-        self.c = [np.concatenate([zero, np.cumsum(t, axis=1)], axis=1) for t in terms]
+        n, m = z.shape
+        wx, wz = w * x, w * z
+        terms = (w, wx, wz, wx * x, wx * z, wz * z)
+        # one (terms x rows x samples + 1) array: one gather serves all six sums
+        self.c = np.zeros((len(terms), n, m + 1))
+        for k, t in enumerate(terms):
+            np.cumsum(t, axis=1, out=self.c[k, :, 1:])
+        self.rows = np.arange(n)
 
     def over(self, a: np.ndarray, b: np.ndarray) -> list[np.ndarray]:
         """Sums over samples a..b inclusive (index arrays of equal shape, rows first)."""
         a2 = np.clip(a, 0, None)
         b2 = np.clip(b + 1, 0, None)
         a2 = np.minimum(a2, b2)
-        if a.ndim == 1:
-            a2, b2 = a2[:, None], b2[:, None]
-        out = [np.take_along_axis(c, b2, 1) - np.take_along_axis(c, a2, 1) for c in self.c]
-        return [o[:, 0] for o in out] if a.ndim == 1 else out
+        r = self.rows if a.ndim == 1 else self.rows[:, None]
+        return list(self.c[:, r, b2] - self.c[:, r, a2])
 
     def fit(self, a: np.ndarray, b: np.ndarray) -> dict[str, np.ndarray]:
         """Least-squares line over a..b: intercept, gradient, SSE, RMS, SE of gradient, count."""
