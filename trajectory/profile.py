@@ -539,16 +539,24 @@ def read_profiles(
                                                       float(object_width), clean))
     return metrics
 
+
 def breaks_text(breaks: np.ndarray) -> np.ndarray:
     """Each station's breakline as text: ``offset/level`` pairs from crest edge to toe.
 
     Offsets in m from the centreline (+ towards the water) to 0.1 m, levels to 0.01 m;
-    empty where unreadable.
+    empty where unreadable. Columnar: one formatted piece per break, joined per row.
     """
-    out = np.empty(breaks.shape[0], dtype=object)
-    for i, row in enumerate(breaks):
-        ok = np.isfinite(row).all(axis=1)
-        out[i] = " ".join(f"{x:.1f}/{z:.2f}" for x, z in row[ok]) if ok.any() else None
+    n = breaks.shape[0]
+    if n == 0 or breaks.shape[1] == 0:
+        return np.full(n, None, dtype=object)
+    ok = np.isfinite(breaks).all(axis=2)
+    x, z = np.nan_to_num(breaks[..., 0]), np.nan_to_num(breaks[..., 1])
+    pieces = np.char.add(np.char.add(np.char.mod("%.1f/", x), np.char.mod("%.2f", z)), " ")
+    text = np.where(ok[:, 0], pieces[:, 0], "")
+    for k in range(1, breaks.shape[1]):
+        text = np.char.add(text, np.where(ok[:, k], pieces[:, k], ""))
+    out = np.char.rstrip(text).astype(object)
+    out[~ok.any(axis=1)] = None
     return out
 
 
