@@ -302,6 +302,14 @@ def test_demo_shows_piping_check_and_berm(demo_result, demo):
     assert len(berms) == (runs["status"] == "short").sum() > 0
     assert (berms["berm_width"] >= MIN_BERM_LENGTH).all() and (berms["fill_volume"] > 0).all()
     assert (st.loc[st["section_id"] == "VN-04", "piping_status"] != "ok").all()
+    # the stretches tile the line and lie on it (their geometry as long as their chainage)
+    assert runs["length"].sum() == pytest.approx(result.line.length, abs=1e-6)
+    assert runs.geometry.length.to_numpy() == pytest.approx(runs["length"].to_numpy(),
+                                                           abs=0.01)
+    # the stations table of the run holds every piping field of the schema
+    from trajectory.outputs.schema import PIPING_STATION_FIELDS
+
+    assert {f.name for f in PIPING_STATION_FIELDS} <= set(result.stations.columns)
 
 
 def test_cli_names_file_row_and_column_of_a_bad_piping_value(demo, tmp_path):

@@ -103,7 +103,9 @@ def geometry_factor(ratio: np.ndarray) -> np.ndarray:
     """Sellmeijer et al. (2011) F_geo = 0.91 (D/L)^(0.28 / ((D/L)^2.8 - 1) + 0.04).
 
     At D/L = 1 the exponent's pole is removable: the limit is 0.91 e^0.1
-    ((1 + e)^(0.1 / e) -> e^0.1).
+    ((1 + e)^(0.1 / e) -> e^0.1). F_geo falls with D/L up to its minimum near
+    D/L = 2.5 and rises slowly beyond (a thick aquifer under a short path, outside
+    the experiments the rule was fitted to).
     """
     x = np.asarray(ratio, float)
     near = np.abs(x - 1.0) < 1e-6
