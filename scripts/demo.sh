@@ -7,7 +7,8 @@ bash scripts/setup_env.sh test
 VPY="$ROOT/.venv/bin/python"
 if [ ! -f sample_gis/dem.tif ] || [ ! -f sample_gis/standards.csv ] \
         || [ ! -f sample_gis/dem_2019.tif ] || [ ! -f sample_gis/dem_2021.tif ] \
-        || [ ! -f sample_gis/structures.csv ]; then
+        || [ ! -f sample_gis/structures.csv ] \
+        || ! grep -q polder_level sample_gis/standards.csv; then
     "$VPY" scripts/make_sample_data.py --out sample_gis
 fi
 mkdir -p results

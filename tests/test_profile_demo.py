@@ -29,7 +29,16 @@ def test_planted_outer_berm_found_with_its_level_and_width(demo, demo_result):
             demo["truth_data"]["outer_slope_cot"], rel=0.05)
         away = st[~_within(st, b["from_chainage"] - 30, b["to_chainage"] + 30)]
         assert np.isfinite(away["outer_berm_level"]).mean() < 0.02
-    assert np.isfinite(st["inner_berm_level"]).mean() < 0.02     # none planted
+    # the planted inner (piping) berm: top at hinterland + thickness, its top as wide as
+    # its length beyond the toe (its face keeps the inner slope); none elsewhere
+    hinter = demo["truth_data"]["hinterland_level"]
+    for b in demo["truth_data"]["inner_berms"]:
+        core = st[_within(st, b["from_chainage"] + b["taper"], b["to_chainage"] - b["taper"])]
+        assert len(core) >= 5 and np.isfinite(core["inner_berm_level"]).all()
+        assert np.abs(core["inner_berm_level"] - (hinter + b["thickness"])).max() < 0.05
+        assert np.abs(core["inner_berm_width"] - b["length"]).max() < 0.6
+        away = st[~_within(st, b["from_chainage"] - 30, b["to_chainage"] + 30)]
+        assert np.isfinite(away["inner_berm_level"]).mean() < 0.02
 
 
 def test_planted_water_flagged_only_there(demo, demo_result):

@@ -67,9 +67,18 @@ def report(demo_result, tmp_path_factory):
 
 def _option_figures(gpkg) -> int:
     from trajectory.outputs.report_remedies import N_WORST
+    from trajectory.remedies import OPTIONS
 
     opt = pyogrio.read_dataframe(gpkg, layer="options")
-    return min(N_WORST, opt["from_chainage"].nunique())
+    return min(N_WORST, opt.loc[opt["option"].isin(OPTIONS), "from_chainage"].nunique())
+
+
+def _piping_figures(gpkg) -> int:
+    """One piping figure per short piping stretch, at most N_WORST (report_piping.py)."""
+    from trajectory.outputs.report_piping import N_WORST
+
+    runs = pyogrio.read_dataframe(gpkg, layer="piping_stretches")
+    return min(N_WORST, int((runs["status"] == "short").sum()))
 
 
 def test_page_parses_and_is_self_contained(report):
@@ -78,9 +87,10 @@ def test_page_parses_and_is_self_contained(report):
     assert html.startswith("<!DOCTYPE html>")
     assert all(r.startswith("data:") or r.startswith("#") for r in page.refs)
     # summary bar, longitudinal, map, cross-sections, margin band, one options figure per
-    # deficit stretch (the demo has two), return period held, extra figure; a single
-    # survey: no epoch figures
-    assert len(page.images) == 4 + 1 + _option_figures(out) + 1 + 1
+    # deficit stretch (the demo has two), one piping figure per short piping stretch (at
+    # most three), return period held, extra figure; a single survey: no epoch figures
+    assert _piping_figures(out) == 3
+    assert len(page.images) == 4 + 1 + _option_figures(out) + _piping_figures(out) + 1 + 1
     for img in page.images:
         head, data = img["src"].split(",", 1)
         assert head == "data:image/png;base64"
@@ -135,7 +145,8 @@ def test_report_command_and_assess_report(demo, report, tmp_path):
     assert res.exit_code == 0, res.output
     html = (tmp_path / "a.html").read_text(encoding="utf-8")
     assert "a.gpkg" in html
-    assert html.count("data:image/png;base64,") == 4 + 1 + _option_figures(tmp_path / "a.gpkg")
+    assert html.count("data:image/png;base64,") == 4 + 1 + _option_figures(
+        tmp_path / "a.gpkg") + _piping_figures(tmp_path / "a.gpkg")
 
 
 def test_registered_section_builders_run_on_the_report_data(demo_result, monkeypatch):
@@ -162,7 +173,8 @@ def test_stage_sections_follow_the_core_ones_in_order(report):
     # the demo is a single survey: no "Change between surveys"
     assert heads == ["Summary", "Along the levee", "Overview map",
                      "Cross-sections of the worst stations", "How sure is each verdict",
-                     "Reinforcement options", "Return period held against the standard",
+                     "Reinforcement options", "Piping (backward erosion)",
+                     "Return period held against the standard",
                      "Extra figure", "Extra table", "Run metadata"]
 
 

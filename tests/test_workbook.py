@@ -45,7 +45,8 @@ def test_stations_sheet_matches_the_csv(demo_result):
     _, out = demo_result
     wb = load_workbook(out.with_suffix(".xlsx"), read_only=True)
     # the demo gives flood damage and a discount rate: van Dantzig per section
-    assert wb.sheetnames == ["stations", "stretches", "options", "economics", "run"]
+    assert wb.sheetnames == ["stations", "stretches", "options", "piping_stretches", "economics",
+                             "run"]
     names, units, _ = _compare(wb["stations"], out.with_suffix(".csv"))
     assert names == field_names("stations")
     assert units == [f.unit or None for f in LAYERS["stations"][1]]

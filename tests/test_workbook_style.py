@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from openpyxl import load_workbook
 
-from trajectory.outputs.style import STATUS_COLOURS
+from trajectory.outputs.style import PIPING_COLOURS, STATUS_COLOURS
 from trajectory.outputs.workbook import FIRST_DATA_ROW, write_result_workbook
 
 
@@ -39,7 +39,8 @@ def test_every_sheet_has_caution_names_and_units_rows_frozen_above_the_values(de
 def test_status_cells_carry_the_status_fill_and_a_readable_font(demo_result):
     wb = _workbook(demo_result)
     seen = set()
-    for title in ("stations", "stretches", "options"):
+    colours = {**STATUS_COLOURS, **PIPING_COLOURS}  # piping berms: status short
+    for title in ("stations", "stretches", "options", "piping_stretches"):
         ws = wb[title]
         names = [c.value for c in ws[2]]
         j = names.index("status") + 1
@@ -47,8 +48,8 @@ def test_status_cells_carry_the_status_fill_and_a_readable_font(demo_result):
             cell = ws.cell(row=r, column=j)
             seen.add(cell.value)
             assert cell.fill.fill_type == "solid", (title, r)
-            assert _rgb(cell.fill.fgColor) == STATUS_COLOURS[cell.value].lstrip("#")
-            light = cell.value in ("watch", "no_data")
+            assert _rgb(cell.fill.fgColor) == colours[cell.value].lstrip("#")
+            light = cell.value in ("watch", "no_data", "not_screened")
             assert _rgb(cell.font.color) == ("000000" if light else "FFFFFF"), (title, r)
             other = ws.cell(row=r, column=1 if j != 1 else 2)
             assert other.fill.fill_type is None

@@ -59,6 +59,7 @@ from .frequency_table import read_frequency
 from .held import HELD_COLUMNS, empty_held, station_held
 from .lines import Centreline, read_centrelines, read_line_conditions, stack_stretches
 from .params import Settings
+from .piping_screen import piping_options, piping_stretches, screen_piping
 from .profile import FLAGS, ProfileMetrics, breaks_text, flag_text, read_profiles
 from .profile_conditions import outer_characteristic_slope
 from .remedies import plan_options
@@ -126,6 +127,9 @@ class Result:
     lines: dict[str, LineString] = field(default_factory=dict)  # line id -> line
     economics: pd.DataFrame | None = None  # van Dantzig optimum per section (economics.py)
     structures: pd.DataFrame | None = None  # known structures applied (structures.py)
+    piping_stretches: pd.DataFrame | None = None  # runs of one piping status (piping_screen.py)
+    piping_options: pd.DataFrame | None = None  # a piping berm per short stretch (the options
+    #                                             layer's fields, written after the crest's)
 
 
 # ---------------------------------------------------------------- chunks
@@ -436,6 +440,14 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
                            fill_settlement=cond.table["fill_settlement"].to_numpy(float)[sec],
                            unit_cost=s.fill_unit_cost, approach=s.approach)
     options.insert(0, "line_id", pl.line_id)
+    # piping: the measured seepage path against Bligh, Lane and Sellmeijer, and a piping
+    # berm per stretch short on it (piping_screen.py)
+    for k, v in screen_piping(table, cond.table.iloc[sec].reset_index(drop=True),
+                              profiles=profiles, offsets=offsets, entry=s.piping_entry).items():
+        table[k] = v
+    pipe_runs = piping_stretches(table, start=s.start_chainage, end=end, line_id=pl.line_id)
+    berms = piping_options(table, pipe_runs, extents=hi - lo, thickness=s.piping_berm_thickness,
+                           unit_cost=s.fill_unit_cost)
     # the economic optimum (van Dantzig 1956) of sections that give damage and discount rate
     economics = section_economics(table, cond.table, extents=hi - lo, unit_cost=s.fill_unit_cost,
                                   line_id=pl.line_id)
@@ -466,7 +478,8 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
         meta.update(_structure_metadata(s.structures_file, known))
     res = Result(stations=table, stretches=stretches, line=line, crs=crs, offsets=offsets,
                  profiles=profiles, metadata=meta, epochs=levels, options=options,
-                 lines={pl.line_id: line}, economics=economics, structures=known)
+                 lines={pl.line_id: line}, economics=economics, structures=known,
+                 piping_stretches=pipe_runs, piping_options=berms)
     return _LineRun(pl.line_id, line, res, len(st))
 
 
@@ -562,7 +575,9 @@ def _combine(runs: list[_LineRun], ids: list[str]) -> Result:
         options=pd.concat([r.options for r in rs], ignore_index=True),
         lines={r.line_id: r.line for r in runs},
         economics=pd.concat([r.economics for r in rs], ignore_index=True),
-        structures=_combine_structures([r.structures for r in rs]))
+        structures=_combine_structures([r.structures for r in rs]),
+        piping_stretches=pd.concat([r.piping_stretches for r in rs], ignore_index=True),
+        piping_options=pd.concat([r.piping_options for r in rs], ignore_index=True))
 
 
 def _survey_sigma(table: pd.DataFrame, s: Settings) -> np.ndarray:

@@ -28,6 +28,7 @@ from .errors import ConditionsError, InputError, InputFileError
 from .frequency import Lines
 from .frequency_conditions import LINE_COLUMNS, LINE_RULES, design_from_lines, section_lines
 from .frequency_table import FrequencyTable
+from .piping_conditions import PIPING_COLUMNS, PIPING_RULES, piping_findings
 from .requirement import METHODS, WAVE_METHODS
 
 log = logging.getLogger(__name__)
@@ -78,6 +79,7 @@ SECTION_COLUMNS: dict[str, tuple[str, str]] = {
 README_TABLES: dict[str, dict[str, tuple[str, str]]] = {
     "sections": {**CONDITION_COLUMNS, **SECTION_COLUMNS},
     "lines": LINE_COLUMNS,
+    "piping": PIPING_COLUMNS,
 }
 #: Optional columns (all but the required ones).
 OPTIONAL_COLUMNS: dict[str, tuple[str, str]] = {
@@ -123,6 +125,7 @@ _NUMERIC_RULES: dict[str, tuple[float | None, float | None, bool]] = {
     "upstream_share_end": (0.0, 1.0, False),
     "fill_settlement": (0.0, 10.0, False),
     **LINE_RULES,
+    **PIPING_RULES,
 }
 _DEFAULTS = {"wave_angle": 0.0, "min_freeboard": 0.0, "upstream_share": 0.0,
              "fill_settlement": 0.0}
@@ -393,6 +396,8 @@ def validate_conditions(raw: pd.DataFrame, *, spatial: bool = False, row_base: i
             findings.append(f"{row(r)}, column roughness: {exc}")
     out["roughness"] = gf
     out["revetment"] = rough.to_numpy(object)
+    # piping: polder level, subsoil class, aquifer parameters (piping_conditions.py)
+    findings += piping_findings(out, text, row)
     # values each within its rule but not a design condition (checks.py)
     findings += condition_plausibility(out, row_base=row_base)
 

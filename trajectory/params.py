@@ -126,6 +126,15 @@ class Settings:
     fill_unit_cost: float = _p(0.0, "Cost per m3 of fill (currency-neutral) for an "
                                "order-of-magnitude cost; 0 = no cost figures.",
                                unit="per m3", min=0.0, max=1e6, group="remedies")
+    # --- piping screening (sections with a polder_level; trajectory.piping_screen)
+    piping_entry: str = _p("outer_toe", "Entry point of the seepage path: the outer toe, or the "
+                           "design waterline (where still water + sea-level rise meets the "
+                           "outer ground); the outer toe where the waterline is not found.",
+                           choices=("outer_toe", "waterline"), group="remedies")
+    piping_berm_thickness: float = _p(1.0, "Thickness of a proposed piping berm on the inner "
+                                      "side (its fill volume is thickness x length per metre); "
+                                      "at least 0.5 m, so the profile reading sees it.",
+                                      unit="m", min=0.5, max=5.0, group="remedies")
     # --- uncertainty: the terrain model's vertical accuracy (trajectory.uncertainty)
     vertical_accuracy: str = _p("asprs-10cm", "Vertical accuracy of the terrain model: an ASPRS "
                                 "(2014) vertical accuracy class (RMSEz, split half systematic) "

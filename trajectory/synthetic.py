@@ -69,6 +69,18 @@ class Berm:
 
 
 @dataclass(frozen=True)
+class InnerBerm:
+    """A piping berm on the inner side: ``thickness`` (m) above the hinterland, reaching
+    ``length`` (m) landward of the inner toe (foot to foot), its face at the inner slope."""
+
+    from_chainage: float
+    to_chainage: float
+    length: float = 10.0
+    thickness: float = 1.0
+    taper: float = 20.0
+
+
+@dataclass(frozen=True)
 class WaterStretch:
     """Stretch whose outer slope ends in water: flat surface at ``level``."""
 
@@ -124,17 +136,37 @@ class DemoSection:
     settlement: float
     roughness: float
     min_freeboard: float
+    # piping (all optional; empty: not screened)
+    polder_level: float = float("nan")
+    subsoil_class: str = ""
+    aquifer_d70: float = float("nan")        # um
+    aquifer_k: float = float("nan")          # m/s
+    aquifer_thickness: float = float("nan")  # m
+    blanket_thickness: float = float("nan")  # m
 
 
 SECTION_COLUMNS: tuple[str, ...] = (
     "section_id", "from_chainage", "to_chainage", "water_level", "hm0", "tm10",
     "wave_angle", "q_allow", "sea_level_rise", "settlement", "roughness", "min_freeboard",
+    "polder_level", "subsoil_class", "aquifer_d70", "aquifer_k", "aquifer_thickness",
+    "blanket_thickness",
 )
+#: the text columns of the sections table (the others are numbers; empty where NaN)
+_TEXT_COLUMNS = ("section_id", "subsoil_class")
 
 _DEFAULT_SECTIONS: tuple[DemoSection, ...] = (
-    DemoSection("VN-01", 0.0, 800.0, 4.20, 0.60, 3.0, 20.0, 1.0, 0.20, 0.10, 1.0, 0.5),
-    DemoSection("VN-02", 800.0, 1500.0, 4.30, 0.55, 2.8, 30.0, 1.0, 0.20, 0.10, 1.0, 0.5),
-    DemoSection("VN-03", 1500.0, 2300.0, 4.35, 0.80, 3.6, 35.0, 10.0, 0.25, 0.15, 0.9, 0.5),
+    # the polder level is the ground behind the levee (hinterland_level, 1.0 m).
+    # Sellmeijer: holds on the full profile, short where the crest is low (steeper toes)
+    DemoSection("VN-01", 0.0, 800.0, 4.20, 0.60, 3.0, 20.0, 1.0, 0.20, 0.10, 1.0, 0.5,
+                polder_level=1.0, aquifer_d70=300.0, aquifer_k=1e-4, aquifer_thickness=15.0,
+                blanket_thickness=1.0),
+    # Sellmeijer on finer sand: held where the outer berm lengthens the path
+    DemoSection("VN-02", 800.0, 1500.0, 4.30, 0.55, 2.8, 30.0, 1.0, 0.20, 0.10, 1.0, 0.5,
+                polder_level=1.0, aquifer_d70=200.0, aquifer_k=1e-4, aquifer_thickness=20.0,
+                blanket_thickness=1.5),
+    # Lane on coarse gravel: held where the inner (piping) berm lies, short elsewhere
+    DemoSection("VN-03", 1500.0, 2300.0, 4.35, 0.80, 3.6, 35.0, 10.0, 0.25, 0.15, 0.9, 0.5,
+                polder_level=1.0, subsoil_class="coarse_gravel"),
     DemoSection("VN-04", 2300.0, 3000.0, 4.55, 0.45, 2.6, 40.0, 1.0, 0.15, 0.05, 1.0, 0.5),
 )
 
@@ -209,6 +241,7 @@ class LeveeSpec:
         LowStretch(1780.0, 2010.0, 0.70, 50.0),
     )
     berms: tuple[Berm, ...] = (Berm(950.0, 1350.0, 3.5, 8.0, 25.0),)
+    inner_berms: tuple[InnerBerm, ...] = (InnerBerm(1540.0, 1720.0, 10.0, 1.0, 20.0),)
     water_stretches: tuple[WaterStretch, ...] = (WaterStretch(2480.0, 2880.0, 2.0),)
     holes: tuple[Hole, ...] = (
         Hole(1640.0, 0.4, 1.5, "crest"),
@@ -235,8 +268,8 @@ class LeveeSpec:
             "margin_m") if not getattr(self, n) > 0]
         if self.noise_sigma < 0:
             problems.append("noise_sigma must not be negative")
-        for name in ("low_stretches", "berms", "water_stretches", "hedges", "rate_stretches",
-                     "sections"):
+        for name in ("low_stretches", "berms", "inner_berms", "water_stretches", "hedges",
+                     "rate_stretches", "sections"):
             for it in getattr(self, name):
                 if not 0 <= it.from_chainage < it.to_chainage <= self.length_m + 1e-6:
                     problems.append(f"{name}: {it.from_chainage}-{it.to_chainage} is not an "
@@ -259,6 +292,7 @@ class LeveeSpec:
             length_m=float(length_m),
             low_stretches=tuple(sc(x, ft + ("taper",)) for x in self.low_stretches),
             berms=tuple(sc(x, ft + ("taper",)) for x in self.berms),
+            inner_berms=tuple(sc(x, ft + ("taper",)) for x in self.inner_berms),
             water_stretches=tuple(sc(x, ft) for x in self.water_stretches),
             holes=tuple(sc(x, ("chainage",)) for x in self.holes),
             hedges=tuple(sc(x, ft) for x in self.hedges),
@@ -304,6 +338,7 @@ class LeveeSpec:
         return replace(
             self, length_m=length_m,
             low_stretches=rep(self.low_stretches), berms=rep(self.berms),
+            inner_berms=rep(self.inner_berms),
             water_stretches=rep(self.water_stretches), holes=rep(self.holes, point=True),
             hedges=rep(self.hedges), rate_stretches=rep(self.rate_stretches),
             sections=_fix_last(tuple(secs), length_m),
@@ -453,8 +488,14 @@ def _surface_parts(s: NDArray[np.float64], d: NDArray[np.float64], *, spec: Leve
         inw = (sc >= w.from_chainage) & (sc <= w.to_chainage) & (d > 0)
         ground_out = np.where(inw, w.level, ground_out)
         water |= inw & (outer < w.level)
-    # inner side: slope, hinterland with a drainage ditch
+    # inner side: slope (with piping berms where planted), hinterland with a drainage ditch
     inner = np.minimum(zc, zc - (-d - half) / spec.inner_slope)
+    for ib in spec.inner_berms:
+        # the toe moves landward by the berm's length; the face keeps the inner slope
+        foot = (half + (zc - spec.hinterland_level) * spec.inner_slope
+                + ib.length * _window_weight(sc, ib.from_chainage, ib.to_chainage, ib.taper))
+        face = spec.hinterland_level + (foot + d) / spec.inner_slope
+        inner = np.maximum(inner, np.minimum(spec.hinterland_level + ib.thickness, face))
     ditch = spec.ditch_depth * np.clip(
         1.0 - np.abs(d - spec.ditch_offset) / (0.5 * spec.ditch_width), 0.0, 1.0)
     ground_in = spec.hinterland_level - ditch
@@ -909,7 +950,7 @@ def write_sections_csv(path: str | Path, spec: LeveeSpec) -> Path:
     rows = [",".join(SECTION_COLUMNS)]
     for sec in spec.sections:
         vals = asdict(sec)
-        rows.append(",".join(vals[c] if c == "section_id" else f"{vals[c]:g}"
+        rows.append(",".join(vals[c] if c in _TEXT_COLUMNS else _num(float(vals[c]))
                              for c in SECTION_COLUMNS))
     path.write_text("\n".join(rows) + "\n", encoding="utf-8")
     return path
@@ -958,7 +999,7 @@ def write_standards_csv(path: str | Path, spec: LeveeSpec) -> Path:
                 if ln.kind == "table" and len(ln.table[0]) > 2:  # waves from the table
                     vals["hm0"] = vals["tm10"] = float("nan")
         vals.update(extra)
-        rows.append(",".join(vals[c] if c == "section_id" else _num(float(vals[c]))
+        rows.append(",".join(vals[c] if c in _TEXT_COLUMNS else _num(float(vals[c]))
                              for c in STANDARD_COLUMNS))
     path.write_text("\n".join(rows) + "\n", encoding="utf-8")
     return path
@@ -1062,6 +1103,7 @@ def truth_record(spec: LeveeSpec, centreline: LineString, *,
             {**asdict(x), "full_depth_from": x.from_chainage + x.taper,
              "full_depth_to": x.to_chainage - x.taper} for x in spec.low_stretches],
         "berms": [asdict(x) for x in spec.berms],
+        "inner_berms": [asdict(x) for x in spec.inner_berms],
         "water_stretches": [{**asdict(x), "side": "outer"} for x in spec.water_stretches],
         "nodata_holes": [asdict(x) for x in spec.holes],
         "hedges": [asdict(x) for x in spec.hedges],

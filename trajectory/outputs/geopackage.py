@@ -149,15 +149,28 @@ def stretch_frame(result) -> pd.DataFrame:
 
 
 def section_profile_table(result) -> pd.DataFrame:
-    """Profiles of the worst stations and the options' design stations (see :mod:`.profiles`)."""
+    """Profiles of the worst stations and the options' design stations (see :mod:`.profiles`),
+    and of the worst station of the piping stretches the report draws."""
+    from .report_piping import drawn_chainages
+
     ch = stored_chainages(stretch_frame(result), result.stations, result.options)
+    pipe = drawn_chainages(piping_stretch_frame(result))
+    ch = np.concatenate([ch, pipe[~np.isin(pipe, ch)]])
     return profile_table(result.stations["chainage"].to_numpy(float), result.offsets,
                          result.profiles, ch)
 
 
+def _all_options(result) -> pd.DataFrame | None:
+    """The crest's options, then the piping berms (:mod:`trajectory.piping_screen`)."""
+    cols = field_names("options")
+    parts = [o[cols] for o in (result.options, getattr(result, "piping_options", None))
+             if o is not None and not o.empty]
+    return pd.concat(parts, ignore_index=True) if parts else None
+
+
 def option_layer(result, *, start: float, reverse: bool) -> gpd.GeoDataFrame:
     """The remedies, one row per stretch, basis and option, on the stretch's line."""
-    opt = result.options
+    opt = _all_options(result)
     cols = field_names("options")
     if opt is None or opt.empty:
         return gpd.GeoDataFrame({c: [] for c in cols}, geometry=[], crs=result.crs)
@@ -168,15 +181,37 @@ def option_layer(result, *, start: float, reverse: bool) -> gpd.GeoDataFrame:
 
 
 def option_frame(result) -> pd.DataFrame:
-    """The options layer's attributes (no geometry; flags as 0/1), for layer and workbook."""
+    """The options layer's attributes (no geometry; flags as 0/1), for layer and workbook:
+    the crest's options, then the piping berms."""
     cols = field_names("options")
-    opt = result.options
+    opt = _all_options(result)
     if opt is None or opt.empty:
         return pd.DataFrame({c: [] for c in cols})
     data = opt[cols].reset_index(drop=True).copy()
     for c in ("closes_gap", "cheapest"):
         data[c] = data[c].astype(int)
     return data
+
+
+def piping_stretch_frame(result) -> pd.DataFrame:
+    """The piping stretches' attributes (no geometry); empty where the run made none."""
+    cols = field_names("piping_stretches")
+    t = getattr(result, "piping_stretches", None)
+    if t is None or t.empty:
+        return pd.DataFrame({c: pd.Series([], dtype=object if f.kind == "str" else float)
+                             for c, f in zip(cols, LAYERS["piping_stretches"][1], strict=True)})
+    return t[cols].reset_index(drop=True)
+
+
+def piping_stretch_layer(result, *, start: float, reverse: bool) -> gpd.GeoDataFrame:
+    """The piping stretches on their part of the line."""
+    data = piping_stretch_frame(result)
+    cols = field_names("piping_stretches")
+    if data.empty:
+        return gpd.GeoDataFrame({c: data[c] for c in cols}, geometry=[], crs=result.crs)
+    geoms = _pieces_along(result, data["line_id"].to_numpy(object), data["from_chainage"],
+                          data["to_chainage"], start=start, reverse=reverse)
+    return _frame({c: data[c].to_numpy() for c in cols}, "piping_stretches", geoms, result.crs)
 
 
 def structure_frame(result) -> pd.DataFrame:
@@ -222,6 +257,7 @@ def write_geopackage(result, path: str | Path, *, overwrite: bool = False,
         "section_profiles": section_profile_table(result),
         "economics": economics_frame(result),
         "structures": structure_frame(result),
+        "piping_stretches": piping_stretch_layer(result, start=start, reverse=reverse),
     }
     assert set(layers) == set(LAYERS)
     slds = sld_paths(path) if styles else {}

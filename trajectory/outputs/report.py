@@ -32,6 +32,7 @@ from ..status import STATUSES
 from . import (
     plots,
     report_epochs,
+    report_piping,
     report_remedies,
     report_standards,
     report_structures,
@@ -73,6 +74,7 @@ SECTION_BUILDERS: tuple[SectionBuilder, ...] = (
     report_uncertainty.uncertainty_section,   # how sure each verdict is
     report_epochs.epoch_section,              # several surveys (None for one)
     report_remedies.remedy_section,           # reinforcement options
+    report_piping.piping_section,             # piping: seepage length, piping berms
     report_standards.standards_section,       # return period held vs the standard
 )
 

@@ -119,6 +119,7 @@ def remedy_section(data: ReportData, *, n_worst: int = N_WORST) -> tuple[str, st
     opt = data.layers.get("options")
     if opt is None:
         return None
+    opt = opt[opt["option"].isin(OPTIONS)]  # the crest's; piping berms: report_piping.py
     if opt.empty:
         if (data.stretches["status"] == "deficit").any():
             return None

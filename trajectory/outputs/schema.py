@@ -197,6 +197,54 @@ STATION_FIELDS = STATION_FIELDS + (
     _f("structure_note", "str", "", "Their note(s), ';'-joined"),
 )
 
+# --- piping (backward erosion) screened on the measured profile (trajectory.piping_screen)
+PIPING_STATION_FIELDS: tuple[Field, ...] = (
+    _f("piping_status", "str", "",
+       "ok | short (seepage path shorter than a rule requires) | no_data (entry or exit not "
+       "read) | not_screened (no polder_level) | excluded"),
+    _f("seepage_length", "float", "m",
+       "Horizontal seepage length L from the entry to the exit point"),
+    _f("piping_required", "float", "m", "Seepage length the governing rule requires"),
+    _f("piping_margin", "float", "m", "seepage_length - piping_required (negative: short)"),
+    _f("piping_rule", "str", "", "Governing rule: bligh | lane | sellmeijer"),
+    _f("piping_head", "float", "m",
+       "Head difference dH = water_level + sea_level_rise - polder_level"),
+    _f("piping_required_bligh", "float", "m",
+       "Bligh (1910): C_B dH (empty: class not in Bligh's table)"),
+    _f("piping_required_lane", "float", "m",
+       "Lane (1935): horizontal length 3 C_L dH (L_v + L_h / 3 >= C_L dH, no vertical path)"),
+    _f("piping_required_sellmeijer", "float", "m",
+       "Sellmeijer et al. (2011): shortest L whose critical head reaches dH - 0.3 d "
+       "(empty: no aquifer parameters)"),
+    _f("sellmeijer_critical_head", "float", "m",
+       "Sellmeijer et al. (2011) critical head H_c at the measured seepage_length"),
+    _f("piping_entry", "str", "", "Entry point used: outer_toe | waterline"),
+    _f("piping_entry_offset", "float", "m",
+       "Offset of the entry point from the centreline (+ towards the water)"),
+    _f("piping_exit", "str", "", "Exit point used: inner_toe | inner_berm_end"),
+    _f("piping_exit_offset", "float", "m",
+       "Offset of the exit point from the centreline (- towards land)"),
+    _f("polder_level", "float", "m", "Land-side water or ground level of the section"),
+    _f("subsoil_class", "str", "", "Subsoil class of the section (creep rules)"),
+)
+STATION_FIELDS = STATION_FIELDS + PIPING_STATION_FIELDS
+
+#: runs of consecutive stations of one piping status
+PIPING_STRETCH_FIELDS: tuple[Field, ...] = (
+    _f("from_chainage", "float", "m", "Start of the stretch"),
+    _f("line_id", "str", "", "Line the stretch belongs to (empty for a single line)"),
+    _f("to_chainage", "float", "m", "End of the stretch"),
+    _f("length", "float", "m", "Length of the stretch"),
+    _f("status", "str", "", "piping_status of its stations: ok | short | no_data | "
+       "not_screened | excluded"),
+    _f("worst_margin", "float", "m", "Smallest piping_margin in the stretch"),
+    _f("worst_chainage", "float", "m", "Chainage of the smallest piping_margin"),
+    _f("stations", "int", "", "Number of stations in the stretch"),
+    _f("seepage_length", "float", "m", "seepage_length at the worst station"),
+    _f("piping_required", "float", "m", "piping_required at the worst station"),
+    _f("piping_rule", "str", "", "Governing rule at the worst station"),
+)
+
 CROSS_SECTION_FIELDS: tuple[Field, ...] = (
     _f("chainage", "float", "m", "Chainage of the station"),
     _f("crest_level", "float", "m", "Measured crest level"),
@@ -287,12 +335,15 @@ OPTION_FIELDS: tuple[Field, ...] = (
     _f("status", "str", "", "Status of the stretch (deficit, or watch on request)"),
     _f("basis", "str", "", "whole_stretch: one design over the stretch, sized so every "
        "station reaches the target; every_station: each station's own design, summed"),
-    _f("option", "str", "", "raise | outer_berm | combined"),
+    _f("option", "str", "", "raise | outer_berm | combined (crest); piping_berm (a stretch "
+       "short on piping: an inner berm lengthening the seepage path)"),
     _f("chainage", "float", "m",
        "Station that governs the design: least margin with it built in (whole_stretch)"),
     _f("crest_raise", "float", "m", "Crest raise, incl. the settlement allowance of new fill"),
-    _f("berm_level", "float", "m", "Level of the outer berm (DEM datum)"),
-    _f("berm_width", "float", "m", "Width added to the outer berm (the measured one, or new)"),
+    _f("berm_level", "float", "m", "Level of the outer berm (DEM datum); piping_berm: level of "
+       "its top (inner toe level + piping_berm_thickness)"),
+    _f("berm_width", "float", "m", "Width added to the outer berm (the measured one, or new); "
+       "piping_berm: its length landward of the exit point (the seepage deficit closed)"),
     _f("fill_volume", "float", "m3", "Fill volume over the stretch (screening estimate)"),
     _f("footprint_outer", "float", "m", "Widening of the footprint on the outer side"),
     _f("footprint_inner", "float", "m", "Widening of the footprint on the inner side"),
@@ -336,6 +387,7 @@ LAYERS: dict[str, tuple[str | None, tuple[Field, ...]]] = {
     "section_profiles": (None, SECTION_PROFILE_FIELDS),
     "economics": (None, ECONOMICS_FIELDS),
     "structures": (None, STRUCTURE_FIELDS),
+    "piping_stretches": ("LineString", PIPING_STRETCH_FIELDS),
 }
 
 # --- several lines in one run: the spatial layers lead with the line's id

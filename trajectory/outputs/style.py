@@ -29,6 +29,12 @@ STATUS_COLOURS: dict[str, str] = {
     "no_data": "#A0A0A0",  # grey
     "excluded": "#40004B",  # dark plum: a known structure or accepted exception
 }
+#: fill colour of the piping statuses not among the crest's (piping_screen.py): short of
+#: the seepage length a rule asks takes the deficit's colour
+PIPING_COLOURS: dict[str, str] = {
+    "short": STATUS_COLOURS["deficit"],
+    "not_screened": "#DCDCDC",  # light grey
+}
 #: outline and neutral line colour
 INK = "#303030"
 

@@ -22,7 +22,7 @@ from .. import CAUTION
 from .atomic import atomic_path
 from .fill import EXTRA_COLUMNS
 from .schema import LAYERS
-from .style import STATUS_COLOURS
+from .style import PIPING_COLOURS, STATUS_COLOURS
 from .xlsx import Style, Workbook
 
 #: first row of values on a data sheet (1-based, as in the spreadsheet)
@@ -32,7 +32,7 @@ DEGREE_DECIMALS = 7
 #: font colour of the caution row: the deficit colour (A6103C)
 CAUTION_COLOUR = STATUS_COLOURS["deficit"].lstrip("#")
 #: statuses whose fill is light enough for black text (white on the others)
-_LIGHT = frozenset({"watch", "no_data"})
+_LIGHT = frozenset({"watch", "no_data", "not_screened"})
 
 
 def _units(layer: str) -> dict[str, str]:
@@ -75,7 +75,7 @@ def _status_styles(wb: Workbook, status: np.ndarray, bold: np.ndarray) -> np.nda
     """Style id per row of the status column: its fill, a readable font, bold where asked."""
     plain = {b: wb.style(Style(bold=b)) for b in (False, True)}
     ids = np.where(bold, plain[True], plain[False])
-    for k, colour in STATUS_COLOURS.items():
+    for k, colour in {**STATUS_COLOURS, **PIPING_COLOURS}.items():
         font = "000000" if k in _LIGHT else "FFFFFF"
         for b in (False, True):
             sid = wb.style(Style(bold=b, colour=font, fill=colour.lstrip("#")))
@@ -128,10 +128,12 @@ def _when(metadata: dict) -> datetime | None:
 def write_workbook(stations: pd.DataFrame, stretches: pd.DataFrame, metadata: dict,
                    path: str | Path, *, overwrite: bool = False,
                    options: pd.DataFrame | None = None,
-                   economics: pd.DataFrame | None = None) -> Path:
+                   economics: pd.DataFrame | None = None,
+                   piping: pd.DataFrame | None = None) -> Path:
     """Write ``stations`` (contract fields), the severity-sorted ``stretches``, the
     ``options`` (options layer's fields; the sheet is left out when None), the
-    ``economics`` (van Dantzig per section; left out when None or empty) and metadata."""
+    ``piping`` stretches (left out when None or empty), the ``economics`` (van Dantzig
+    per section; left out when None or empty) and metadata."""
     from ..remedies import CAVEAT, COST_NOTE
 
     wb = Workbook()
@@ -145,6 +147,11 @@ def write_workbook(stations: pd.DataFrame, stretches: pd.DataFrame, metadata: di
         _sheet(wb, "options", options, _units("options"),
                f"{CAUTION} Reinforcement options: {CAVEAT} {COST_NOTE}",
                bold_rows=cheapest, kinds=_kinds("options"))
+    if piping is not None and not piping.empty:
+        from ..piping_screen import CAVEAT as PIPING_CAVEAT
+
+        _sheet(wb, "piping_stretches", piping, _units("piping_stretches"),
+               f"{CAUTION} {PIPING_CAVEAT}", kinds=_kinds("piping_stretches"))
     if economics is not None and not economics.empty:
         from ..economics import CAVEAT as ECONOMICS_CAVEAT
 
@@ -160,11 +167,12 @@ def write_workbook(stations: pd.DataFrame, stretches: pd.DataFrame, metadata: di
 def write_result_workbook(result, path: str | Path, *, overwrite: bool = False) -> Path:
     """The workbook of an in-memory result."""
     from .fill import stretch_table
-    from .geopackage import economics_frame, option_frame, stretch_frame
+    from .geopackage import economics_frame, option_frame, piping_stretch_frame, stretch_frame
     from .table import deficit_frame
 
     st = deficit_frame(result)
     options = option_frame(result)
     return write_workbook(st, stretch_table(st, stretch_frame(result), options),
                           dict(sorted(result.metadata.items())), path, overwrite=overwrite,
-                          options=options, economics=economics_frame(result))
+                          options=options, economics=economics_frame(result),
+                          piping=piping_stretch_frame(result))
