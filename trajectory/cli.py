@@ -87,8 +87,9 @@ class _Progress:
         if self.bar is None:
             from tqdm import tqdm
             from tqdm.contrib.logging import logging_redirect_tqdm
-            self.bar = tqdm(total=total, unit="station", file=sys.stderr, leave=False,
-                            dynamic_ncols=True)
+            # drawn first at the count already done, so no 0 % line is left behind
+            self.bar = tqdm(total=total, initial=done, unit="station", file=sys.stderr,
+                            leave=False, dynamic_ncols=True)
             self._redirect = logging_redirect_tqdm()
             self._redirect.__enter__()
         self.bar.update(done - self.bar.n)
