@@ -12,6 +12,9 @@ fresh process and repeated (the best wall time counts, the largest peak memory):
 - blocks: each internal block of the tiles that the sections touch, read once
   straight from the tile (the decompression a program cannot avoid);
 - serial: ``trajectory.assess.assess`` with one process (writes the GeoPackage);
+- stability: the same with the inner-slope stability screening on (every section with
+  an invented body soil, one in four weak enough to be short, so the stability berms
+  are designed too);
 - pool: the same on a local process pool;
 - naive: the script a user would otherwise write, a loop over sections with
   shapely points and ``dataset.sample`` (timed on the first sections only and
@@ -72,6 +75,25 @@ def build(folder: Path, length_m: float) -> dict[str, str]:
     out["tiles"] = len(list(Path(paths["dem"]).parent.glob("*.tif")))
     done.write_text(json.dumps(out))
     return out
+
+
+#: the invented soils of the stability case: (unit weight, saturated, c', phi', required)
+BENCH_SOIL = ((18.0, 20.0, 5.0, 32.0, 1.3), (18.0, 20.0, 6.0, 30.0, 1.3),
+              (17.0, 18.5, 1.0, 22.0, 1.3), (18.0, 20.0, 5.0, 31.0, 1.3))
+
+
+def soil_conditions(paths: dict[str, str]) -> str:
+    """The scenario's sections with a body soil per row (written once beside them)."""
+    src = Path(paths["sections"])
+    dst = src.with_name("sections_soil.csv")
+    if not dst.exists():
+        lines = src.read_text(encoding="utf-8").splitlines()
+        head = lines[0] + (",soil_unit_weight,soil_unit_weight_sat,soil_cohesion,"
+                           "soil_friction_angle,required_safety_factor")
+        rows = [ln + "," + ",".join(f"{v:g}" for v in BENCH_SOIL[k % len(BENCH_SOIL)])
+                for k, ln in enumerate(lines[1:])]
+        dst.write_text("\n".join([head, *rows]) + "\n", encoding="utf-8")
+    return str(dst)
 
 
 def _sections(paths: dict[str, str]):
@@ -196,17 +218,27 @@ def measure_blocks(paths: dict[str, str], workers: int) -> dict:
             "stations": len(st)}
 
 
-def measure_assess(paths: dict[str, str], workers: int) -> dict:
+def measure_assess(paths: dict[str, str], workers: int, *, conditions: str = "") -> dict:
     from trajectory.assess import RunInputs, assess
     from trajectory.params import Settings
 
     out = Path(tempfile.mkdtemp(prefix="bench_out_")) / "results.gpkg"
     t, cpu0 = time.perf_counter(), _cpu()
-    res = assess(RunInputs(paths["centreline"], paths["dem"], paths["sections"]), out,
-                 Settings(workers=workers))
+    res = assess(RunInputs(paths["centreline"], paths["dem"], conditions or paths["sections"]),
+                 out, Settings(workers=workers))
     wall, cpu = time.perf_counter() - t, _cpu() - cpu0
     counts = {k: int(v) for k, v in res.stations["status"].value_counts().items()}
-    return {"wall": wall, "cpu": cpu, "stations": len(res.stations), "status": counts}
+    got = {"wall": wall, "cpu": cpu, "stations": len(res.stations), "status": counts}
+    if conditions:
+        got["stability"] = {k: int(v) for k, v in
+                            res.stations["stability_status"].value_counts().items()}
+        got["berms"] = int((res.options["option"] == "stability_berm").sum())
+    return got
+
+
+def measure_stability(paths: dict[str, str], workers: int) -> dict:
+    """The serial assessment with the inner-slope stability screening on."""
+    return measure_assess(paths, workers, conditions=soil_conditions(paths))
 
 
 def measure_engine(paths: dict[str, str], workers: int) -> dict:
@@ -248,7 +280,7 @@ def measure_naive(paths: dict[str, str], workers: int) -> dict:
 
 MEASURES = {"floor": measure_floor, "floor_pool": measure_floor_pool, "blocks": measure_blocks,
             "engine": measure_engine, "serial": measure_assess, "pool": measure_assess,
-            "naive": measure_naive}
+            "stability": measure_stability, "naive": measure_naive}
 
 
 def _child(kind: str, paths_json: str, workers: int) -> None:
@@ -275,7 +307,7 @@ def _run_child(kind: str, paths: dict, workers: int) -> dict:
 # ------------------------------------------------------------------ report
 def bench(lengths: list[float], folder: Path, *, repeat: int, workers: int,
           naive: bool) -> dict:
-    kinds = ["floor", "floor_pool", "blocks", "engine", "serial", "pool"]
+    kinds = ["floor", "floor_pool", "blocks", "engine", "serial", "pool", "stability"]
     kinds += ["naive"] if naive else []
     report: dict = {"cores": workers, "repeat": repeat, "lengths": {}}
     for km in lengths:
@@ -313,6 +345,9 @@ def print_report(rep: dict) -> None:
         print(f"{km:g} km: engine (run, no files) / floor = {b['engine']['wall'] / fl:.2f}")
         print(f"{km:g} km: pool / (floor / {cores}) = {b['pool']['wall'] / (fl / cores):.2f} "
               f"(target <= 1.2)")
+        print(f"{km:g} km: stability / floor = {b['stability']['wall'] / fl:.2f} "
+              f"(target <= 3; {b['stability'].get('stability', {})}, "
+              f"{b['stability'].get('berms', 0)} berms)")
         print(f"{km:g} km: serial / blocks floor = {b['serial']['wall'] / b['blocks']['wall']:.2f}")
         if "naive" in b:
             print(f"{km:g} km: naive / serial = {b['naive']['wall'] / b['serial']['wall']:.1f} "
@@ -328,6 +363,9 @@ def print_report(rep: dict) -> None:
             print(f"  {k:>7}: {v:.4f}  ({v / per_km['floor']:.2f} x floor)")
         fl = per_km["floor"]
         print(f"per km: serial / floor = {per_km['serial'] / fl:.2f} (target <= 2)")
+        print(f"per km: stability / floor = {per_km['stability'] / fl:.2f} (target <= 3; "
+              f"the stability stage {(per_km['stability'] - per_km['serial']) / fl:.2f} x "
+              "floor)")
         print(f"per km: pool / (floor / {cores}) = {per_km['pool'] / (fl / cores):.2f} "
               f"(target <= 1.2)")
         if "naive" in per_km:

@@ -162,7 +162,8 @@ def test_stage_sections_follow_the_core_ones_in_order(report):
     # the demo is a single survey: no "Change between surveys"
     assert heads == ["Summary", "Along the levee", "Overview map",
                      "Cross-sections of the worst stations", "How sure is each verdict",
-                     "Reinforcement options", "Return period held against the standard",
+                     "Reinforcement options", "Inner-slope stability",
+                     "Return period held against the standard",
                      "Extra figure", "Extra table", "Run metadata"]
 
 

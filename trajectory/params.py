@@ -119,6 +119,11 @@ class Settings:
     fill_unit_cost: float = _p(0.0, "Cost per m3 of fill (currency-neutral) for an "
                                "order-of-magnitude cost; 0 = no cost figures.",
                                unit="per m3", min=0.0, max=1e6, group="remedies")
+    # --- inner-slope stability (trajectory.stability; sections with soil columns only)
+    stability_phreatic: str = _p("line", "Phreatic line for the inner-slope stability screening: "
+                                 "'line' (still water on the outer slope straight to the inner "
+                                 "toe) or 'saturated' (at the ground surface: a fully saturated "
+                                 "body).", choices=("line", "saturated"), group="stability")
     # --- uncertainty: the terrain model's vertical accuracy (trajectory.uncertainty)
     vertical_accuracy: str = _p("asprs-10cm", "Vertical accuracy of the terrain model: an ASPRS "
                                 "(2014) vertical accuracy class (RMSEz, split half systematic) "

@@ -33,6 +33,7 @@ from . import (
     plots,
     report_epochs,
     report_remedies,
+    report_stability,
     report_standards,
     report_structures,
     report_uncertainty,
@@ -73,6 +74,7 @@ SECTION_BUILDERS: tuple[SectionBuilder, ...] = (
     report_uncertainty.uncertainty_section,   # how sure each verdict is
     report_epochs.epoch_section,              # several surveys (None for one)
     report_remedies.remedy_section,           # reinforcement options
+    report_stability.stability_section,       # inner-slope stability and berms
     report_standards.standards_section,       # return period held vs the standard
 )
 

@@ -133,6 +133,7 @@ def write_workbook(stations: pd.DataFrame, stretches: pd.DataFrame, metadata: di
     ``options`` (options layer's fields; the sheet is left out when None), the
     ``economics`` (van Dantzig per section; left out when None or empty) and metadata."""
     from ..remedies import CAVEAT, COST_NOTE
+    from ..stability import CAUTION as STABILITY_CAUTION
 
     wb = Workbook()
     _sheet(wb, "stations", stations, _units("stations"), CAUTION, kinds=_kinds("stations"))
@@ -143,7 +144,8 @@ def write_workbook(stations: pd.DataFrame, stretches: pd.DataFrame, metadata: di
         cheapest = (options["cheapest"].to_numpy().astype(int) > 0
                     if "cheapest" in options.columns else None)
         _sheet(wb, "options", options, _units("options"),
-               f"{CAUTION} Reinforcement options: {CAVEAT} {COST_NOTE}",
+               f"{CAUTION} Reinforcement options: {CAVEAT} {COST_NOTE} Stability berms "
+               f"(option stability_berm): {STABILITY_CAUTION}",
                bold_rows=cheapest, kinds=_kinds("options"))
     if economics is not None and not economics.empty:
         from ..economics import CAVEAT as ECONOMICS_CAVEAT
