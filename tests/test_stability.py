@@ -205,7 +205,7 @@ def test_berm_round_trip_reaches_the_target_factor():
     soil, required = _soil(18, 20, 4, 26, n), np.full(n, 1.3)
     before = sb.search(off, zz, fr, soil)
     assert (before.fos < 1.3).all()                # short: a berm is needed
-    stations = pd.DataFrame({"chainage": [0.0, 25.0, 50.0],
+    stations = pd.DataFrame({"chainage": [0.0, 25.0, 50.0], "stability_fos": before.fos,
                              "stability_status": sb.status(before.fos, required,
                                                            screened=np.ones(n, bool)),
                              "inner_slope": np.full(n, 1.6)})
@@ -305,3 +305,32 @@ def test_demo_report_has_the_stability_section(demo_result, tmp_path):
     assert "not a geotechnical assessment" in page
     assert "stability_berm" in page
     assert page.count("alt=\"stability at chainage") >= 1
+
+
+def test_stretch_design_is_the_least_fill_berm_passing_at_every_station():
+    """The staged design equals trying every berm at every station (synthetic truth)."""
+    from trajectory.stability_berms import _evaluate, design
+
+    profiles = [levee(n_in, height=6.0, crest=4.0, still_water=5.0) for n_in in
+                (1.5, 2.2, 1.7, 1.9, 1.6)]
+    off = profiles[0][0]
+    z = np.vstack([p[1] for p in profiles])
+    frame = sb.Frame(*(np.concatenate([getattr(p[2], f) for p in profiles])
+                       for f in sb.Frame.__dataclass_fields__))
+    n = z.shape[0]
+    soil, required = _soil(18, 20, 4, 26, n), np.full(n, 1.3)
+    face, extents = berm_face(np.array([1.5, 2.2, 1.7, 1.9, 1.6])), np.full(n, 25.0)
+    now = sb.search(off, z, frame, soil).fos
+    got = design(off, z, frame, soil, face, required, extents, fos_now=now)
+    level, width = sb.berm_candidates(frame)
+    k = level.shape[1]
+    fos, area = _evaluate(off, z, frame, soil, face, level, width, np.repeat(np.arange(n), k),
+                          np.tile(np.arange(k), n), phreatic="line")
+    fos, area = fos.reshape(n, k), area.reshape(n, k)
+    passing = (fos >= 1.3).all(axis=0)
+    assert passing.any() and got["closes"]
+    fill = (area * 25.0).sum(axis=0)
+    best = int(np.argmin(np.where(passing, fill, np.inf)))
+    assert got["candidate"] == best
+    assert got["fill"] == pytest.approx(fill[best])
+    assert got["fos"] == pytest.approx(fos[:, best].min())
