@@ -334,3 +334,25 @@ def test_stretch_design_is_the_least_fill_berm_passing_at_every_station():
     assert got["candidate"] == best
     assert got["fill"] == pytest.approx(fill[best])
     assert got["fos"] == pytest.approx(fos[:, best].min())
+
+
+def test_bad_soil_in_a_csv_names_file_row_and_column_at_once(tmp_path):
+    """Every bad stability cell is reported at once, with the file, the line and the column."""
+    from trajectory.conditions import read_conditions
+    from trajectory.errors import ConditionsError
+
+    p = tmp_path / "sections.csv"
+    p.write_text(
+        "section_id,from_chainage,to_chainage,water_level,sea_level_rise,settlement,"
+        "freeboard_method,fixed_freeboard,soil_unit_weight,soil_cohesion,"
+        "soil_friction_angle,required_safety_factor\n"
+        "A,0,100,3,0,0,constant,1,18,5,30,1.3\n"
+        "B,100,200,3,0,0,constant,1,18,5,75,1.3\n"
+        "C,200,300,3,0,0,constant,1,18,,30,\n", encoding="utf-8")
+    with pytest.raises(ConditionsError) as exc:
+        read_conditions(p)
+    text = str(exc.value)
+    assert str(p) in text
+    assert "row 3, column soil_friction_angle: 75 breaks the rule" in text
+    assert "row 4, column(s) soil_cohesion, required_safety_factor: empty" in text
+    assert len(exc.value.findings) == 2
