@@ -14,6 +14,9 @@ fresh process and repeated (the best wall time counts, the largest peak memory):
 - serial: ``trajectory.assess.assess`` with one process (writes the GeoPackage);
 - lines: the same on the safety standards and frequency lines (design levels read
   off the lines, the return period each station holds, the economic optimum);
+- stability: the same with the inner-slope stability screening on (every section with
+  an invented body soil, one in four weak enough to be short, so the stability berms
+  are designed too);
 - pool: the same on a local process pool;
 - naive: the script a user would otherwise write, a loop over sections with
   shapely points and ``dataset.sample`` (timed on the first sections only and
@@ -74,6 +77,25 @@ def build(folder: Path, length_m: float) -> dict[str, str]:
     out["tiles"] = len(list(Path(paths["dem"]).parent.glob("*.tif")))
     done.write_text(json.dumps(out))
     return out
+
+
+#: the invented soils of the stability case: (unit weight, saturated, c', phi', required)
+BENCH_SOIL = ((18.0, 20.0, 5.0, 32.0, 1.3), (18.0, 20.0, 6.0, 30.0, 1.3),
+              (17.0, 18.5, 1.0, 22.0, 1.3), (18.0, 20.0, 5.0, 31.0, 1.3))
+
+
+def soil_conditions(paths: dict[str, str]) -> str:
+    """The scenario's sections with a body soil per row (written once beside them)."""
+    src = Path(paths["sections"])
+    dst = src.with_name("sections_soil.csv")
+    if not dst.exists():
+        lines = src.read_text(encoding="utf-8").splitlines()
+        head = lines[0] + (",soil_unit_weight,soil_unit_weight_sat,soil_cohesion,"
+                           "soil_friction_angle,required_safety_factor")
+        rows = [ln + "," + ",".join(f"{v:g}" for v in BENCH_SOIL[k % len(BENCH_SOIL)])
+                for k, ln in enumerate(lines[1:])]
+        dst.write_text("\n".join([head, *rows]) + "\n", encoding="utf-8")
+    return str(dst)
 
 
 def _sections(paths: dict[str, str]):
@@ -198,20 +220,32 @@ def measure_blocks(paths: dict[str, str], workers: int) -> dict:
             "stations": len(st)}
 
 
-def measure_assess(paths: dict[str, str], workers: int, *, lines: bool = False) -> dict:
+def measure_assess(paths: dict[str, str], workers: int, *, lines: bool = False,
+                   soil: str = "") -> dict:
     """The whole job, GeoPackage written; with ``lines`` on the frequency lines and
-    safety standards (``standards.csv`` + ``frequency.csv``): the probability stage."""
+    safety standards (``standards.csv`` + ``frequency.csv``): the probability stage;
+    with ``soil`` on those conditions (the stability case)."""
     from trajectory.assess import RunInputs, assess
     from trajectory.params import Settings
 
     out = Path(tempfile.mkdtemp(prefix="bench_out_")) / "results.gpkg"
-    conditions = paths["standards"] if lines else paths["sections"]
+    conditions = soil or (paths["standards"] if lines else paths["sections"])
     settings = Settings(workers=workers, frequency=paths["frequency"] if lines else "")
     t, cpu0 = time.perf_counter(), _cpu()
     res = assess(RunInputs(paths["centreline"], paths["dem"], conditions), out, settings)
     wall, cpu = time.perf_counter() - t, _cpu() - cpu0
     counts = {k: int(v) for k, v in res.stations["status"].value_counts().items()}
-    return {"wall": wall, "cpu": cpu, "stations": len(res.stations), "status": counts}
+    got = {"wall": wall, "cpu": cpu, "stations": len(res.stations), "status": counts}
+    if soil:
+        got["stability"] = {k: int(v) for k, v in
+                            res.stations["stability_status"].value_counts().items()}
+        got["berms"] = int((res.options["option"] == "stability_berm").sum())
+    return got
+
+
+def measure_stability(paths: dict[str, str], workers: int) -> dict:
+    """The serial assessment with the inner-slope stability screening on."""
+    return measure_assess(paths, workers, soil=soil_conditions(paths))
 
 
 def measure_lines(paths: dict[str, str], workers: int) -> dict:
@@ -289,8 +323,7 @@ def measure_naive(paths: dict[str, str], workers: int) -> dict:
 
 MEASURES = {"floor": measure_floor, "floor_pool": measure_floor_pool, "blocks": measure_blocks,
             "engine": measure_engine, "serial": measure_assess, "lines": measure_lines,
-            "pool": measure_assess,
-            "naive": measure_naive}
+            "pool": measure_assess, "stability": measure_stability, "naive": measure_naive}
 
 
 def _child(kind: str, paths_json: str, workers: int) -> None:
@@ -317,7 +350,8 @@ def _run_child(kind: str, paths: dict, workers: int) -> dict:
 # ------------------------------------------------------------------ report
 def bench(lengths: list[float], folder: Path, *, repeat: int, workers: int,
           naive: bool, kinds: list[str] | None = None) -> dict:
-    kinds = kinds or ["floor", "floor_pool", "blocks", "engine", "serial", "lines", "pool"]
+    kinds = kinds or ["floor", "floor_pool", "blocks", "engine", "serial", "lines", "pool",
+                      "stability"]
     kinds += ["naive"] if naive and "naive" not in kinds else []
     report: dict = {"cores": workers, "repeat": repeat, "lengths": {}}
     for km in lengths:
@@ -364,6 +398,9 @@ def print_report(rep: dict) -> None:
         print(f"{km:g} km: engine (run, no files) / floor = {b['engine']['wall'] / fl:.2f}")
         print(f"{km:g} km: pool / (floor / {cores}) = {b['pool']['wall'] / (fl / cores):.2f} "
               f"(target <= 1.2)")
+        print(f"{km:g} km: stability / floor = {b['stability']['wall'] / fl:.2f} "
+              f"(target <= 3; {b['stability'].get('stability', {})}, "
+              f"{b['stability'].get('berms', 0)} berms)")
         print(f"{km:g} km: serial / blocks floor = {b['serial']['wall'] / b['blocks']['wall']:.2f}")
         if "naive" in b:
             print(f"{km:g} km: naive / serial = {b['naive']['wall'] / b['serial']['wall']:.1f} "
@@ -389,6 +426,11 @@ def print_report(rep: dict) -> None:
                   f"{(per_km['lines'] - per_km['serial']) / fl:.3f} wall, "
                   f"{(cpu_km['lines'] - cpu_km['serial']) / cpu_km['floor']:.3f} CPU "
                   "(target <= 0.1)")
+        if "stability" in per_km:
+            print(f"per km: stability / floor = {per_km['stability'] / fl:.2f} wall, "
+                  f"{cpu_km['stability'] / cpu_km['floor']:.2f} CPU (target <= 3; the stability "
+                  f"stage {(cpu_km['stability'] - cpu_km['serial']) / cpu_km['floor']:.2f} x "
+                  "floor in CPU)")
         print(f"per km: pool / (floor / {cores}) = {per_km['pool'] / (fl / cores):.2f} "
               f"(target <= 1.2)")
         if "naive" in per_km:

@@ -94,6 +94,11 @@ def test_section_profiles_hold_the_worst_stations(demo_result):
     worst = st[st["status"].isin(["deficit", "watch"])]["worst_chainage"]
     opt = pyogrio.read_dataframe(out, layer="options")
     design = opt.loc[opt["basis"] == "whole_stretch", "chainage"]
-    # the worst stations, and the stations that govern a whole-stretch option
-    assert set(worst) <= set(prof["chainage"]) <= set(worst) | set(design)
+    # the worst stations, the stations that govern a whole-stretch option, and the worst
+    # station of each stretch short on inner-slope stability (drawn by its report section)
+    from trajectory.outputs.profiles import worst_stability_chainages
+
+    shaky = set(worst_stability_chainages(result.stations))
+    assert shaky and shaky <= set(prof["chainage"])
+    assert set(worst) <= set(prof["chainage"]) <= set(worst) | set(design) | shaky
     assert len(prof) == prof["chainage"].nunique() * result.offsets.size

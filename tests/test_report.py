@@ -174,6 +174,7 @@ def test_stage_sections_follow_the_core_ones_in_order(report):
     assert heads == ["Summary", "Along the levee", "Overview map",
                      "Cross-sections of the worst stations", "How sure is each verdict",
                      "Reinforcement options", "Piping (backward erosion)",
+                     "Inner-slope stability",
                      "Return period held against the standard",
                      "Extra figure", "Extra table", "Run metadata"]
 

@@ -29,9 +29,10 @@ def test_report_loads_in_chromium_and_renders(demo_result, tmp_path):
     # the browser decodes every figure the page holds: four core figures, the margin
     # band, the return period held (the demo has standards), one options figure per
     # deficit stretch drawn (the demo has two), one piping figure per short piping
-    # stretch drawn (three)
+    # stretch drawn (three), one stability section per stretch short on inner-slope
+    # stability (the demo has one)
     assert found["bad"] == []
-    assert found["images"] == page.read_text(encoding="utf-8").count("<img ") == 11
+    assert found["images"] == page.read_text(encoding="utf-8").count("<img ") == 12
     png = screenshot(page, tmp_path / "report.png", height=1400)
     rgb = np.asarray(Image.open(png).convert("RGB")).astype(int)
     assert rgb.std() > 20          # not a blank page

@@ -23,9 +23,10 @@ import rasterio
 from pyproj import CRS
 from shapely.geometry import LineString, MultiLineString
 
-from . import CAUTION, __version__, diagnosis, uncertainty
+from . import CAUTION, __version__, diagnosis, stability, uncertainty
 from .chainage import Stations, crossing_sections, make_stations
 from .checks import check_chunk_memory, sections_off_the_line
+from .conditions import station_soil
 from .demread import DemReading, reading_rules, with_rules
 from .economics import section_economics
 from .epoch_sources import crest_from_result, open_earlier_dem
@@ -81,6 +82,8 @@ from .sources import (
     read_centreline,
     read_conditions,
 )
+from .stability import Soil
+from .stability_berms import plan_berms
 from .station_list import read_station_chainages
 from .status import EXCLUDED, STATUSES, Stretches, classify, merge_stretches, station_extents
 from .structures import (
@@ -143,6 +146,7 @@ class _Chunk:
     settings: Settings
     dem_reading: DemReading | None = None
     lines: Lines | None = None         # frequency line per station (frequency.py)
+    soil: Soil | None = None           # body soil per station (stability.py; NaN: none)
 
 
 _OPEN = threading.local()
@@ -222,8 +226,22 @@ def _assess_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
         out.update(empty_held(margin.size))
     out.update(simulate(ds, chunk.stations, chunk.side, chunk.offsets, chunk.conditions, s,
                         accuracy=acc, chunk_key=int(chunk.stations.along[0] * 1000)))
+    # inner-slope stability: Bishop (1955) circles on the measured inner side (stability.py)
+    out.update(_stability_columns(z, chunk, prof))
     out["profiles"] = z.astype(np.float32)
     return out
+
+
+def _stability_columns(z: np.ndarray, chunk: _Chunk,
+                       prof: ProfileMetrics) -> dict[str, np.ndarray]:
+    """The stability search's station fields; NaN where a section gives no soil."""
+    n = z.shape[0]
+    if chunk.soil is None or not np.isfinite(chunk.soil.unit_weight).any():
+        return {k: np.full(n, np.nan) for k in stability.STATION_COLUMNS}
+    c = chunk.conditions
+    frame = stability.frame_of(prof, c.water_level + c.sea_level_rise)
+    return stability.station_stability(chunk.offsets, z, frame, chunk.soil,
+                                       phreatic=chunk.settings.stability_phreatic)
 
 
 def _one_station(chunk: _Chunk, i: int) -> _Chunk:
@@ -231,7 +249,8 @@ def _one_station(chunk: _Chunk, i: int) -> _Chunk:
     sl = slice(i, i + 1)
     return dataclasses.replace(chunk, stations=chunk.stations.take(sl), side=chunk.side[sl],
                                conditions=chunk.conditions.take(sl),
-                               lines=None if chunk.lines is None else chunk.lines.take(sl))
+                               lines=None if chunk.lines is None else chunk.lines.take(sl),
+                               soil=None if chunk.soil is None else chunk.soil.take(sl))
 
 
 def _chunks(n: int, size: int) -> list[slice]:
@@ -384,8 +403,9 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
     slices = _chunks(len(st), s.chunk_size)
     gathered = _gather_conditions(cond, sec, st.chainage)
     lines = cond.lines.take(sec) if cond.lines is not None else no_lines(len(st))
+    soil, required = station_soil(cond.table, sec)
     tasks = [_Chunk(dem.path, st.take(sl), side[sl], gathered.take(sl), offsets, s, reading,
-                    lines.take(sl)) for sl in slices]
+                    lines.take(sl), soil.take(sl)) for sl in slices]
     got: list[dict[str, np.ndarray] | ChunkFailure] = []
     done = 0
     for part in _map(Guarded(_assess_chunk, _one_station), tasks, s):
@@ -419,6 +439,7 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
     if match is not None:
         status[match.effect == "exclude"] = EXCLUDED
     table = _station_table(st, side, cond, sec, cols, status)
+    _stability_fields(table, cols, soil, required)
     table["lon"], table["lat"] = _wgs84(crs, st.x, st.y)
     _structure_columns(table, ground_crest, match)
     table.insert(0, "line_id", pl.line_id)
@@ -439,6 +460,14 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
                            berm_above_swl=s.berm_above_swl,
                            fill_settlement=cond.table["fill_settlement"].to_numpy(float)[sec],
                            unit_cost=s.fill_unit_cost, approach=s.approach)
+    # stability berms for every stretch short on inner-slope stability (stability_berms.py)
+    frame = stability.frame_of(_FrameColumns({**cols, "crest_level": ground_crest}),
+                               gathered.water_level + gathered.sea_level_rise)
+    berms = plan_berms(table, offsets, profiles, frame, soil, required, extents=hi - lo,
+                       lo=lo, hi=hi, phreatic=s.stability_phreatic, unit_cost=s.fill_unit_cost)
+    if berms:
+        options = pd.concat([options, pd.DataFrame(berms, columns=options.columns)],
+                            ignore_index=True)
     options.insert(0, "line_id", pl.line_id)
     # piping: the measured seepage path against Bligh, Lane and Sellmeijer, and a piping
     # berm per stretch short on it (piping_screen.py)
@@ -481,6 +510,24 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
                  lines={pl.line_id: line}, economics=economics, structures=known,
                  piping_stretches=pipe_runs, piping_options=berms)
     return _LineRun(pl.line_id, line, res, len(st))
+
+
+class _FrameColumns:
+    """Profile columns of a line as attributes (for :func:`stability.frame_of`)."""
+
+    def __init__(self, cols: dict[str, np.ndarray]) -> None:
+        self.__dict__.update(cols)
+
+
+def _stability_fields(table: pd.DataFrame, cols: dict[str, np.ndarray], soil: Soil,
+                      required: np.ndarray) -> None:
+    """Factor of safety, required factor, status and critical circle per station (in place)."""
+    screened = np.isfinite(soil.unit_weight)
+    table["stability_required"] = required
+    for k in stability.STATION_COLUMNS:
+        table[k] = cols[k]
+    table["stability_status"] = stability.status(cols["stability_fos"], required,
+                                                 screened=screened)
 
 
 def _wgs84(crs: CRS, x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -13,6 +13,7 @@ Every bad row is reported at once, naming the row, the column and the rule.
 from __future__ import annotations
 
 import logging
+from collections.abc import Callable
 from dataclasses import dataclass, replace
 from pathlib import Path
 
@@ -30,6 +31,7 @@ from .frequency_conditions import LINE_COLUMNS, LINE_RULES, design_from_lines, s
 from .frequency_table import FrequencyTable
 from .piping_conditions import PIPING_COLUMNS, PIPING_RULES, piping_findings
 from .requirement import METHODS, WAVE_METHODS
+from .stability import Soil
 
 log = logging.getLogger(__name__)
 
@@ -75,11 +77,29 @@ SECTION_COLUMNS: dict[str, tuple[str, str]] = {
     "fill_settlement": ("m", "0 <= number <= 10; settlement allowance of new fill for the "
                              "reinforcement options (empty: 0)"),
 }
+#: Optional columns of the inner-slope stability screening (trajectory.stability): one
+#: homogeneous soil per section, the screening level. A section that gives none of them
+#: is not screened; one that gives any must give the unit weight, cohesion, friction
+#: angle and required factor.
+STABILITY_COLUMNS: dict[str, tuple[str, str]] = {
+    "soil_unit_weight": ("kN/m3", "10 <= number <= 30; unit weight of the levee's soil above "
+                                  "the phreatic line"),
+    "soil_unit_weight_sat": ("kN/m3", "10 <= number <= 30, at least soil_unit_weight; below "
+                                      "the phreatic line (empty: soil_unit_weight)"),
+    "soil_cohesion": ("kPa", "0 <= number <= 500; effective cohesion c'"),
+    "soil_friction_angle": ("degrees", "0 <= number <= 60; effective friction angle phi'"),
+    "required_safety_factor": ("-", "1 <= number <= 3; the factor of safety the inner slope "
+                                    "must reach (the user's code or screening value)"),
+}
+#: the stability columns a screened section must give
+_STABILITY_NEEDED = ("soil_unit_weight", "soil_cohesion", "soil_friction_angle",
+                     "required_safety_factor")
 #: The README's conditions tables, by marker name (``<!-- conditions:NAME -->``).
 README_TABLES: dict[str, dict[str, tuple[str, str]]] = {
     "sections": {**CONDITION_COLUMNS, **SECTION_COLUMNS},
     "lines": LINE_COLUMNS,
     "piping": PIPING_COLUMNS,
+    "stability": STABILITY_COLUMNS,
 }
 #: Optional columns (all but the required ones).
 OPTIONAL_COLUMNS: dict[str, tuple[str, str]] = {
@@ -124,6 +144,11 @@ _NUMERIC_RULES: dict[str, tuple[float | None, float | None, bool]] = {
     "upstream_share": (0.0, 1.0, False),
     "upstream_share_end": (0.0, 1.0, False),
     "fill_settlement": (0.0, 10.0, False),
+    "soil_unit_weight": (10.0, 30.0, False),
+    "soil_unit_weight_sat": (10.0, 30.0, False),
+    "soil_cohesion": (0.0, 500.0, False),
+    "soil_friction_angle": (0.0, 60.0, False),
+    "required_safety_factor": (1.0, 3.0, False),
     **LINE_RULES,
     **PIPING_RULES,
 }
@@ -432,6 +457,8 @@ def validate_conditions(raw: pd.DataFrame, *, spatial: bool = False, row_base: i
     if from_tp.any():
         out.loc[from_tp, "tm10"] = np.asarray(hy.tm10_from_tp(out.loc[from_tp, "tp"].to_numpy()))
 
+    findings += _stability_findings(out, row)
+
     ws = text("water_side").str.lower()
     for i in np.flatnonzero(~ws.isin(["", "left", "right"]).to_numpy()):
         findings.append(f"{row(i)}, column water_side: {ws.iloc[i]!r} must be left or right")
@@ -462,6 +489,46 @@ def validate_conditions(raw: pd.DataFrame, *, spatial: bool = False, row_base: i
             findings.append(f"sections {a.section_id!r} (row {a._row}) and {b.section_id!r} "
                             f"(row {b._row}) overlap ({lo_c[k]:g}-{hi_c[k - 1]:g} m)")
     return out, findings
+
+
+def _stability_findings(out: pd.DataFrame, row: Callable[[int], str]) -> list[str]:
+    """A section screened for stability gives its whole soil; the saturated weight defaults."""
+    given = np.column_stack([np.isfinite(out[c].to_numpy(float)) for c in _STABILITY_NEEDED])
+    sat = out["soil_unit_weight_sat"].to_numpy(float)
+    findings = []
+    for i in np.flatnonzero(given.any(1) & ~given.all(1)):
+        missing = [c for c, g in zip(_STABILITY_NEEDED, given[i], strict=True) if not g]
+        findings.append(f"{row(i)}, column(s) {', '.join(missing)}: empty; a section screened "
+                        "for inner-slope stability needs " + ", ".join(_STABILITY_NEEDED)
+                        + " (or leave all of them empty)")
+    for i in np.flatnonzero(np.isfinite(sat) & ~given.any(1)):
+        findings.append(f"{row(i)}, column soil_unit_weight_sat: given without soil_unit_weight "
+                        "and the other stability columns; give them too or leave it empty")
+    gamma = out["soil_unit_weight"].to_numpy(float)
+    with np.errstate(invalid="ignore"):
+        light = np.isfinite(sat) & (sat < gamma)
+    for i in np.flatnonzero(light):
+        findings.append(f"{row(i)}, column soil_unit_weight_sat: {sat[i]:g} is below "
+                        f"soil_unit_weight {gamma[i]:g}; the saturated soil weighs at least as "
+                        "much")
+    c, phi = out["soil_cohesion"].to_numpy(float), out["soil_friction_angle"].to_numpy(float)
+    for i in np.flatnonzero((c == 0) & (phi == 0)):
+        findings.append(f"{row(i)}, columns soil_cohesion and soil_friction_angle: both 0; a soil "
+                        "without strength cannot be screened (give c' or phi')")
+    out["soil_unit_weight_sat"] = np.where(np.isfinite(sat), sat, gamma)
+    return findings
+
+
+def station_soil(table: pd.DataFrame, idx: np.ndarray) -> tuple[Soil, np.ndarray]:
+    """The soil and the required factor of safety per station (NaN where not screened)."""
+    def col(name: str) -> np.ndarray:
+        if name in table.columns:
+            return table[name].to_numpy(float)[idx]
+        return np.full(np.shape(idx), np.nan)
+
+    soil = Soil(col("soil_unit_weight"), col("soil_unit_weight_sat"), col("soil_cohesion"),
+                col("soil_friction_angle"))
+    return soil, col("required_safety_factor")
 
 
 def _polygon_findings(polys: np.ndarray, ids: np.ndarray, row_base: int) -> list[str]:

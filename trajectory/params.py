@@ -135,6 +135,11 @@ class Settings:
                                       "side (its fill volume is thickness x length per metre); "
                                       "at least 0.5 m, so the profile reading sees it.",
                                       unit="m", min=0.5, max=5.0, group="remedies")
+    # --- inner-slope stability (trajectory.stability; sections with soil columns only)
+    stability_phreatic: str = _p("line", "Phreatic line for the inner-slope stability screening: "
+                                 "'line' (still water on the outer slope straight to the inner "
+                                 "toe) or 'saturated' (at the ground surface: a fully saturated "
+                                 "body).", choices=("line", "saturated"), group="stability")
     # --- uncertainty: the terrain model's vertical accuracy (trajectory.uncertainty)
     vertical_accuracy: str = _p("asprs-10cm", "Vertical accuracy of the terrain model: an ASPRS "
                                 "(2014) vertical accuracy class (RMSEz, split half systematic) "

@@ -516,7 +516,7 @@ OPTION_COLUMNS = (
     "from_chainage", "to_chainage", "length", "status", "stretch", "basis", "option",
     "chainage", "crest_raise", "berm_level", "berm_width", "fill_volume",
     "footprint_outer", "footprint_inner", "gamma_b", "closes_gap", "remaining_deficit",
-    "cost", "cheapest",
+    "cost", "cheapest", "fos_with_option",
 )
 
 

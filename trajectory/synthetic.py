@@ -961,7 +961,19 @@ STANDARD_COLUMNS: tuple[str, ...] = (
     *SECTION_COLUMNS, "standard_return_period", "standard_probability", "level_ref",
     "return_period_ref", "decimation_height", "gumbel_location", "gumbel_scale",
     "flood_damage", "discount_rate", "raise_fixed_cost",
+    "soil_unit_weight", "soil_unit_weight_sat", "soil_cohesion", "soil_friction_angle",
+    "required_safety_factor",
 )
+
+#: the demo's invented body soil per section for the inner-slope stability screening:
+#: (unit weight, saturated unit weight (kN/m3), c' (kPa), phi' (degrees), required factor).
+#: VN-03 is a weak, silty body (short on stability on its 1:2.5 inner slope); VN-04 gives
+#: none and is not screened. The required factor 1.3 is the demo's own screening value.
+DEMO_SOIL: dict[str, tuple[float, float, float, float, float]] = {
+    "VN-01": (18.0, 20.0, 6.0, 30.0, 1.3),
+    "VN-02": (18.0, 20.0, 5.0, 32.0, 1.3),
+    "VN-03": (17.0, 18.5, 1.0, 22.0, 1.3),
+}
 
 
 def _num(v: float) -> str:
@@ -994,6 +1006,8 @@ def write_standards_csv(path: str | Path, spec: LeveeSpec) -> Path:
                              gumbel_scale=ln.gumbel_scale)
             extra.update(flood_damage=ln.flood_damage, discount_rate=ln.discount_rate,
                          raise_fixed_cost=ln.raise_fixed_cost)
+        if sec.section_id in DEMO_SOIL:
+            extra.update(zip(STANDARD_COLUMNS[-5:], DEMO_SOIL[sec.section_id], strict=True))
             if not ln.level_given:
                 vals["water_level"] = float("nan")
                 if ln.kind == "table" and len(ln.table[0]) > 2:  # waves from the table

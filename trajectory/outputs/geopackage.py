@@ -14,11 +14,12 @@ import shapely
 
 from ..chainage import line_substrings
 from ..held import stretch_held
+from ..stability import arc_points
 from ..uncertainty import stretch_uncertainty
 from .atomic import atomic_path, refuse_overwrite
 from .describe import write_data_columns
 from .epochs_layer import epoch_layer, epoch_stretch_columns
-from .profiles import profile_table, stored_chainages
+from .profiles import profile_table, stored_chainages, worst_stability_chainages
 from .schema import LAYERS, field_names
 from .style import sld_paths, write_layer_styles, write_slds
 
@@ -68,6 +69,31 @@ def crest_line_layer(result) -> gpd.GeoDataFrame:
         to.append(t["chainage"].iloc[r[-1]])
     return _frame({"line_id": ids, "from_chainage": fr, "to_chainage": to}, "crest_line",
                   geoms, result.crs)
+
+
+def slip_circle_layer(result) -> gpd.GeoDataFrame:
+    """The critical circle of every screened station: its arc in map coordinates and levels.
+
+    The arc lies in the station's section plane: each point sits at its offset
+    along the section line (+ towards the water) at the arc's level (Z).
+    """
+    t = result.stations
+    cols = field_names("slip_circles")
+    if "stability_fos" not in t:
+        return gpd.GeoDataFrame({c: [] for c in cols}, geometry=[], crs=result.crs)
+    rows = np.flatnonzero(np.isfinite(t["stability_fos"].to_numpy(float)))
+    side = np.where(t["water_side"].to_numpy(object) == "left", 1.0, -1.0)[rows, None]
+    v = {k: t[k].to_numpy(float)[rows, None] for k in (
+        "slip_centre_offset", "slip_centre_level", "slip_radius", "slip_entry", "slip_exit",
+        "x", "y", "nx", "ny")}
+    off, lev = arc_points(v["slip_centre_offset"], v["slip_centre_level"], v["slip_radius"],
+                          v["slip_entry"], v["slip_exit"])
+    xyz = np.stack([v["x"] + side * off * v["nx"], v["y"] + side * off * v["ny"], lev], -1)
+    geoms = list(shapely.linestrings(xyz)) if rows.size else []
+    data = {c: t[c].to_numpy()[rows] for c in t.columns if c in cols}
+    if "line_id" not in data:
+        data["line_id"] = np.full(rows.size, "", object)
+    return _frame(data, "slip_circles", geoms, result.crs)
 
 
 def _pieces_along(result, ids: np.ndarray, from_ch: np.ndarray, to_ch: np.ndarray, *,
@@ -156,6 +182,7 @@ def section_profile_table(result) -> pd.DataFrame:
     ch = stored_chainages(stretch_frame(result), result.stations, result.options)
     pipe = drawn_chainages(piping_stretch_frame(result))
     ch = np.concatenate([ch, pipe[~np.isin(pipe, ch)]])
+    ch = np.concatenate([ch, worst_stability_chainages(result.stations, exclude=ch)])
     return profile_table(result.stations["chainage"].to_numpy(float), result.offsets,
                          result.profiles, ch)
 
@@ -258,6 +285,7 @@ def write_geopackage(result, path: str | Path, *, overwrite: bool = False,
         "economics": economics_frame(result),
         "structures": structure_frame(result),
         "piping_stretches": piping_stretch_layer(result, start=start, reverse=reverse),
+        "slip_circles": slip_circle_layer(result),
     }
     assert set(layers) == set(LAYERS)
     slds = sld_paths(path) if styles else {}

@@ -52,6 +52,30 @@ def stored_chainages(stretches: pd.DataFrame, stations: pd.DataFrame,
     return np.concatenate([ch, design[~np.isin(design, ch)]])
 
 
+def worst_stability_chainages(stations: pd.DataFrame, *, n: int = REPORT_PROFILES,
+                              exclude: np.ndarray | None = None) -> np.ndarray:
+    """Chainage of the least factor of safety of each run of ``short`` stations, worst first.
+
+    With no short station, the least factor of safety stands in (the report draws
+    one screened section); empty where nothing was screened. ``exclude`` are
+    chainages already chosen.
+    """
+    if "stability_fos" not in stations:
+        return np.array([])
+    from ..stability_berms import short_runs
+
+    fos = stations["stability_fos"].to_numpy(float)
+    ratio = fos / stations["stability_required"].to_numpy(float)
+    ch = stations["chainage"].to_numpy(float)
+    runs = short_runs(stations["stability_status"].to_numpy(object))
+    picks = [a + int(np.nanargmin(ratio[a:b + 1])) for a, b in runs]
+    picks = sorted(picks, key=lambda i: ratio[i])[:n]
+    if not picks and np.isfinite(ratio).any():
+        picks = [int(np.nanargmin(ratio))]
+    got = ch[np.asarray(picks, int)]
+    return got if exclude is None else got[~np.isin(got, exclude)]
+
+
 def profile_table(chainage: np.ndarray, offsets: np.ndarray, profiles: np.ndarray,
                   chosen: np.ndarray) -> pd.DataFrame:
     """Long table (chainage, offset, level) of the profiles at the ``chosen`` chainages."""

@@ -34,6 +34,7 @@ from . import (
     report_epochs,
     report_piping,
     report_remedies,
+    report_stability,
     report_standards,
     report_structures,
     report_uncertainty,
@@ -75,6 +76,7 @@ SECTION_BUILDERS: tuple[SectionBuilder, ...] = (
     report_epochs.epoch_section,              # several surveys (None for one)
     report_remedies.remedy_section,           # reinforcement options
     report_piping.piping_section,             # piping: seepage length, piping berms
+    report_stability.stability_section,       # inner-slope stability and berms
     report_standards.standards_section,       # return period held vs the standard
 )
 

@@ -124,7 +124,9 @@ def remedy_section(data: ReportData, *, n_worst: int = N_WORST) -> tuple[str, st
         if (data.stretches["status"] == "deficit").any():
             return None
         return TITLE, "<p>No deficit stretch: no options needed.</p>"
-    opt = sorted_options(opt)
+    opt = sorted_options(opt[opt["option"].isin(OPTIONS)])  # the crest's (stability: its own)
+    if opt.empty:
+        return TITLE, "<p>No deficit stretch: no options needed.</p>"
     sr = data.stretches.set_index("from_chainage")
     worst = sr["worst_margin"].reindex(opt["from_chainage"].unique())
     chosen = worst.sort_values(kind="stable").index[:n_worst]

@@ -245,6 +245,39 @@ PIPING_STRETCH_FIELDS: tuple[Field, ...] = (
     _f("piping_rule", "str", "", "Governing rule at the worst station"),
 )
 
+# --- inner-slope stability (trajectory.stability): Bishop (1955) on the measured inner side
+STABILITY_STATION_FIELDS: tuple[Field, ...] = (
+    _f("stability_fos", "float", "-",
+       "Least factor of safety of the inner slope over the circles searched, Bishop (1955) "
+       "simplified, one homogeneous soil (empty where not screened)"),
+    _f("stability_required", "float", "-",
+       "Required factor of safety of the section (column required_safety_factor)"),
+    _f("stability_status", "str", "",
+       "ok (stability_fos >= stability_required) | short | no_data (inner side not read) | "
+       "not_screened (the section gives no soil)"),
+    _f("slip_centre_offset", "float", "m", "Centre of the critical circle: offset, + towards "
+       "the water"),
+    _f("slip_centre_level", "float", "m", "Centre of the critical circle: level (DEM datum)"),
+    _f("slip_radius", "float", "m", "Radius of the critical circle"),
+    _f("slip_entry", "float", "m", "Offset where the critical circle enters the ground (crest "
+       "or inner slope)"),
+    _f("slip_exit", "float", "m", "Offset where it leaves the ground (inner toe region or "
+       "beyond)"),
+    _f("phreatic_entry", "float", "m",
+       "Offset where the schematised phreatic line leaves the still water on the outer slope "
+       "(empty with stability_phreatic saturated)"),
+    _f("phreatic_entry_level", "float", "m", "Its level: still water, at most the crest level"),
+)
+STATION_FIELDS = STATION_FIELDS + STABILITY_STATION_FIELDS
+
+#: the critical circle of every screened station, drawn along its section line
+SLIP_CIRCLE_FIELDS: tuple[Field, ...] = (
+    _f("chainage", "float", "m", "Chainage of the station"),
+    _f("section_id", "str", "", "Section of the station"),
+    *(f for f in STABILITY_STATION_FIELDS if f.name not in ("phreatic_entry",
+                                                           "phreatic_entry_level")),
+)
+
 CROSS_SECTION_FIELDS: tuple[Field, ...] = (
     _f("chainage", "float", "m", "Chainage of the station"),
     _f("crest_level", "float", "m", "Measured crest level"),
@@ -332,11 +365,14 @@ OPTION_FIELDS: tuple[Field, ...] = (
     _f("line_id", "str", "", "Line the stretch belongs to (empty for a single line)"),
     _f("to_chainage", "float", "m", "End of the stretch"),
     _f("length", "float", "m", "Length of the stretch"),
-    _f("status", "str", "", "Status of the stretch (deficit, or watch on request)"),
+    _f("status", "str", "",
+       "Status of the stretch (deficit, or watch on request; short for a stability_berm)"),
     _f("basis", "str", "", "whole_stretch: one design over the stretch, sized so every "
        "station reaches the target; every_station: each station's own design, summed"),
-    _f("option", "str", "", "raise | outer_berm | combined (crest); piping_berm (a stretch "
-       "short on piping: an inner berm lengthening the seepage path)"),
+    _f("option", "str", "",
+       "raise | outer_berm | combined (crest) | piping_berm (a stretch short on piping: an "
+       "inner berm lengthening the seepage path) | stability_berm (inner slope: berm_level "
+       "and berm_width of a berm on the inner side, status short)"),
     _f("chainage", "float", "m",
        "Station that governs the design: least margin with it built in (whole_stretch)"),
     _f("crest_raise", "float", "m", "Crest raise, incl. the settlement allowance of new fill"),
@@ -354,7 +390,11 @@ OPTION_FIELDS: tuple[Field, ...] = (
     _f("remaining_deficit", "float", "m", "What is still short where the option cannot close"),
     _f("cost", "float", "cost units",
        "fill_volume x fill_unit_cost: an order-of-magnitude estimate"),
-    _f("cheapest", "int", "", "1 for the least-fill option that closes the gap"),
+    _f("cheapest", "int", "", "1 for the least-fill option that closes the gap (a "
+       "stability_berm: 1 where it closes its stretch's stability gap)"),
+    _f("fos_with_option", "float", "-",
+       "stability_berm: least factor of safety over the stretch with the berm built in "
+       "(Bishop 1955, the same search; empty for the crest options)"),
 )
 
 STRUCTURE_FIELDS: tuple[Field, ...] = (
@@ -388,13 +428,14 @@ LAYERS: dict[str, tuple[str | None, tuple[Field, ...]]] = {
     "economics": (None, ECONOMICS_FIELDS),
     "structures": (None, STRUCTURE_FIELDS),
     "piping_stretches": ("LineString", PIPING_STRETCH_FIELDS),
+    "slip_circles": ("LineString Z", SLIP_CIRCLE_FIELDS),
 }
 
 # --- several lines in one run: the spatial layers lead with the line's id
 LINE_ID_FIELD = _f("line_id", "str", "",
                    "Id of the centreline (its --line-id-field value; empty for a single line)")
 # (after the leading chainage field, so tables open on the chainage, frozen beside the header)
-for _name in ("stations", "cross_sections", "crest_line", "stretches"):
+for _name in ("stations", "cross_sections", "crest_line", "stretches", "slip_circles"):
     _fields = LAYERS[_name][1]
     LAYERS[_name] = (LAYERS[_name][0], (_fields[0], LINE_ID_FIELD, *_fields[1:]))
 

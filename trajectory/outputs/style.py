@@ -28,6 +28,7 @@ STATUS_COLOURS: dict[str, str] = {
     "deficit": "#A6103C",  # dark crimson
     "no_data": "#A0A0A0",  # grey
     "excluded": "#40004B",  # dark plum: a known structure or accepted exception
+    "short": "#A6103C",    # short on inner-slope stability: drawn like a deficit
 }
 #: fill colour of the piping statuses not among the crest's (piping_screen.py): short of
 #: the seepage length a rule asks takes the deficit's colour

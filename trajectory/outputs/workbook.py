@@ -135,6 +135,7 @@ def write_workbook(stations: pd.DataFrame, stretches: pd.DataFrame, metadata: di
     ``piping`` stretches (left out when None or empty), the ``economics`` (van Dantzig
     per section; left out when None or empty) and metadata."""
     from ..remedies import CAVEAT, COST_NOTE
+    from ..stability import CAUTION as STABILITY_CAUTION
 
     wb = Workbook()
     _sheet(wb, "stations", stations, _units("stations"), CAUTION, kinds=_kinds("stations"))
@@ -145,7 +146,8 @@ def write_workbook(stations: pd.DataFrame, stretches: pd.DataFrame, metadata: di
         cheapest = (options["cheapest"].to_numpy().astype(int) > 0
                     if "cheapest" in options.columns else None)
         _sheet(wb, "options", options, _units("options"),
-               f"{CAUTION} Reinforcement options: {CAVEAT} {COST_NOTE}",
+               f"{CAUTION} Reinforcement options: {CAVEAT} {COST_NOTE} Stability berms "
+               f"(option stability_berm): {STABILITY_CAUTION}",
                bold_rows=cheapest, kinds=_kinds("options"))
     if piping is not None and not piping.empty:
         from ..piping_screen import CAVEAT as PIPING_CAVEAT
