@@ -190,7 +190,10 @@ def section_profile_table(result) -> pd.DataFrame:
 def _all_options(result) -> pd.DataFrame | None:
     """The crest's options, then the piping berms (:mod:`trajectory.piping_screen`)."""
     cols = field_names("options")
-    parts = [o[cols] for o in (result.options, getattr(result, "piping_options", None))
+    # each part holds the fields of its own kind; the others are empty (e.g. the
+    # factor of safety of a stability berm on a piping berm's row)
+    parts = [o.reindex(columns=cols) for o in (result.options,
+                                               getattr(result, "piping_options", None))
              if o is not None and not o.empty]
     return pd.concat(parts, ignore_index=True) if parts else None
 
