@@ -62,6 +62,9 @@ OPTIONAL_COLUMNS: dict[str, tuple[str, str]] = {
     "upstream_share_end": ("-", "0 <= number <= 1; the share at to_chainage"),
     "fill_settlement": ("m", "0 <= number <= 10; settlement allowance of new fill for the "
                              "reinforcement options (empty: 0)"),
+    "design_outer_slope": ("n of 1:n", "1 <= number <= 20; the registered design outer slope: "
+                                       "where given, the requirement uses it instead of the "
+                                       "measured characteristic slope (flag design_slope)"),
     **LINE_COLUMNS,
 }
 _NUMERIC_RULES: dict[str, tuple[float | None, float | None, bool]] = {
@@ -82,6 +85,7 @@ _NUMERIC_RULES: dict[str, tuple[float | None, float | None, bool]] = {
     "upstream_share": (0.0, 1.0, False),
     "upstream_share_end": (0.0, 1.0, False),
     "fill_settlement": (0.0, 10.0, False),
+    "design_outer_slope": (1.0, 20.0, False),
     **LINE_RULES,
 }
 _DEFAULTS = {"wave_angle": 0.0, "min_freeboard": 0.0, "upstream_share": 0.0,

@@ -124,18 +124,22 @@ class DemoSection:
     settlement: float
     roughness: float
     min_freeboard: float
+    design_outer_slope: float = float("nan")  # registered design slope 1:n (empty: measured)
 
 
 SECTION_COLUMNS: tuple[str, ...] = (
     "section_id", "from_chainage", "to_chainage", "water_level", "hm0", "tm10",
     "wave_angle", "q_allow", "sea_level_rise", "settlement", "roughness", "min_freeboard",
+    "design_outer_slope",
 )
 
 _DEFAULT_SECTIONS: tuple[DemoSection, ...] = (
     DemoSection("VN-01", 0.0, 800.0, 4.20, 0.60, 3.0, 20.0, 1.0, 0.20, 0.10, 1.0, 0.5),
     DemoSection("VN-02", 800.0, 1500.0, 4.30, 0.55, 2.8, 30.0, 1.0, 0.20, 0.10, 1.0, 0.5),
     DemoSection("VN-03", 1500.0, 2300.0, 4.35, 0.80, 3.6, 35.0, 10.0, 0.25, 0.15, 0.9, 0.5),
-    DemoSection("VN-04", 2300.0, 3000.0, 4.55, 0.45, 2.6, 40.0, 1.0, 0.15, 0.05, 1.0, 0.5),
+    # VN-04 is assessed on its registered design slope, 1:3 as built (no slope jitter)
+    DemoSection("VN-04", 2300.0, 3000.0, 4.55, 0.45, 2.6, 40.0, 1.0, 0.15, 0.05, 1.0, 0.5,
+                3.0),
 )
 
 
@@ -909,7 +913,7 @@ def write_sections_csv(path: str | Path, spec: LeveeSpec) -> Path:
     rows = [",".join(SECTION_COLUMNS)]
     for sec in spec.sections:
         vals = asdict(sec)
-        rows.append(",".join(vals[c] if c == "section_id" else f"{vals[c]:g}"
+        rows.append(",".join(vals[c] if c == "section_id" else _num(float(vals[c]))
                              for c in SECTION_COLUMNS))
     path.write_text("\n".join(rows) + "\n", encoding="utf-8")
     return path

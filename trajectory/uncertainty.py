@@ -214,11 +214,14 @@ class StationUncertainty:
 def station_uncertainty(prof: Any, cond: StationConditions, *, margin: np.ndarray,
                         accuracy: VerticalAccuracy, step: float, cell: float,
                         crest_tolerance: float, approach: str, watch_band: float,
+                        slope_given: np.ndarray | None = None,
                         **req_kwargs: Any) -> StationUncertainty:
     """Propagate the terrain model's accuracy through crest, slope and requirement.
 
     ``prof`` is a :class:`profile.ProfileMetrics`; the crest tolerance used per
     station is the one profile reading used, max(crest_tolerance, 3 x noise).
+    Where ``slope_given`` (a design slope, not the survey's) the requirement
+    carries no survey error.
     """
     tol = np.maximum(crest_tolerance, 3.0 * np.nan_to_num(prof.noise))
     c_sig, c_rand = crest_sigma(prof.crest_cells, accuracy=accuracy, step=step, cell=cell,
@@ -228,6 +231,8 @@ def station_uncertainty(prof: Any, cond: StationConditions, *, margin: np.ndarra
                                       crest_level=prof.crest_level, approach=approach,
                                       **req_kwargs)
     r_sig = np.abs(deriv) * s_sig
+    if slope_given is not None:
+        r_sig = np.where(slope_given, 0.0, r_sig)
     m_sig = np.sqrt(c_sig**2 + r_sig**2)
     m_sig = np.where(np.isnan(margin), np.nan, m_sig)
     return StationUncertainty(

@@ -62,3 +62,41 @@ def profile_table(chainage: np.ndarray, offsets: np.ndarray, profiles: np.ndarra
         "offset": np.tile(np.asarray(offsets, float), idx.size),
         "level": np.asarray(profiles, float)[idx].ravel(),
     })
+
+
+#: stands for nodata while the levels are joined (no level checked in lies near -1 km)
+_NODATA_MM = -999999
+
+
+def encode_levels(profiles: np.ndarray) -> np.ndarray:
+    """Each row of ``profiles`` (m) as text: whole millimetres, space-separated.
+
+    NaN (nodata) is written ``nan``; :func:`decode_levels` reads it back in metres.
+    Integers join several times faster than formatted floats (the writer's hot path).
+    """
+    z = np.asarray(profiles, float)
+    if z.size == 0:
+        return np.empty(z.shape[0], dtype=object)
+    mm = np.where(np.isfinite(z), np.rint(z * 1000.0), _NODATA_MM).astype(np.int64)
+    nodata = str(_NODATA_MM)
+    return np.array([" ".join(map(str, row)).replace(nodata, "nan") for row in mm.tolist()],
+                    dtype=object)
+
+
+def decode_levels(text: str | None) -> np.ndarray:
+    """The levels (m) of one ``profile_levels`` text (empty for none)."""
+    if not text:
+        return np.empty(0)
+    return np.array(str(text).split(), dtype=float) / 1000.0
+
+
+def expand_profiles(sections: pd.DataFrame) -> pd.DataFrame:
+    """Long table (chainage, offset, level) from the cross-sections' stored profiles."""
+    rows = []
+    for r in sections.itertuples(index=False):
+        z = decode_levels(getattr(r, "profile_levels", None))
+        off = float(r.profile_start) + float(r.profile_step) * np.arange(z.size)
+        rows.append(pd.DataFrame({"chainage": float(r.chainage), "offset": off, "level": z}))
+    if not rows:
+        return pd.DataFrame({"chainage": [], "offset": [], "level": []})
+    return pd.concat(rows, ignore_index=True)
