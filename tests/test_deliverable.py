@@ -187,3 +187,18 @@ def test_options_of_a_stretch_lie_side_by_side_on_the_land_side(demo_result):
     # the section normal (nx, ny) points to the water side where water_side is left
     side = (p.x - near["x"]) * near["nx"] + (p.y - near["y"]) * near["ny"]
     assert side < 0, (x0, y0, nx, ny)
+
+
+def test_profile_text_matches_pythons_own_integer_formatting():
+    """The columnar encoder writes what str() of each rounded millimetre value writes."""
+    from trajectory.outputs.profiles import encode_levels
+
+    rng = np.random.default_rng(21)
+    z = np.concatenate([rng.normal(3.0, 2.0, (40, 30)), rng.uniform(-500, 9000, (10, 30))])
+    z[rng.random(z.shape) < 0.1] = np.nan
+    z[0, :4] = [-0.0004, -0.0006, 0.0, 9000.0]
+    want = [" ".join("nan" if not np.isfinite(v) else str(int(np.rint(v * 1000.0)))
+                     for v in row) for row in z]
+    got = [" ".join(t.split()) for t in encode_levels(z)]
+    assert got == want
+    assert len(encode_levels(np.empty((0, 5)))) == 0

@@ -117,9 +117,9 @@ def _qml_labels(layer: str, kind: str) -> str:
 
 
 def _qml_aliases(layer: str) -> str:
-    """Field aliases (name and unit) in the style: QGIS reads these since 3.0, while
-    GDAL hands gpkg_data_columns to QGIS only from GDAL 3.7 (checked with QGIS 3.22
-    on GDAL 3.6: no alias from gpkg_data_columns)."""
+    """Field aliases (name and unit) in the style, where QGIS 3.22 reads them: on its
+    GDAL (checked: 3.6.2) no alias comes from gpkg_data_columns; newer GDAL releases
+    read that table as alternative names (from memory, 3.7 on; not checked here)."""
     from .describe import field_title
     from .schema import LAYERS
 
