@@ -202,3 +202,19 @@ def test_profile_text_matches_pythons_own_integer_formatting():
     got = [" ".join(t.split()) for t in encode_levels(z)]
     assert got == want
     assert len(encode_levels(np.empty((0, 5)))) == 0
+
+
+def test_monte_carlo_keeps_the_design_slope_in_every_realisation(demo):
+    """With the slope given, each realisation's margin is its crest minus one fixed
+    requirement, so the Monte Carlo spreads of margin and crest are the same numbers."""
+    res = run(RunInputs(str(demo["centreline"]), str(demo["dem"]), str(demo["sections"])),
+              Settings(simulate=8))
+    st = res.stations
+    on = (st["outer_slope_source"] == "design").to_numpy() & np.isfinite(
+        st["sim_margin_sigma"].to_numpy(float))
+    assert on.sum() >= 20  # the demo's VN-04 gives its design slope
+    np.testing.assert_allclose(st.loc[on, "sim_margin_sigma"], st.loc[on, "sim_crest_sigma"],
+                               rtol=1e-9)
+    off = (st["outer_slope_source"] == "measured").to_numpy() & np.isfinite(
+        st["sim_margin_sigma"].to_numpy(float))
+    assert not np.allclose(st.loc[off, "sim_margin_sigma"], st.loc[off, "sim_crest_sigma"])

@@ -33,7 +33,7 @@ import numpy as np
 from scipy.special import erfc
 
 from .errors import ParameterError
-from .requirement import StationConditions, required_level
+from .requirement import StationConditions, required_level, requirement_slope
 from .status import Stretches, classify
 
 log = logging.getLogger(__name__)
@@ -374,8 +374,11 @@ def simulate(ds: Any, stations: Any, side: np.ndarray, offsets: np.ndarray,
         prof = read_profiles(z, offsets, object_width=s.object_width,
                              crest_search=s.crest_search, crest_tolerance=s.crest_tolerance,
                              max_nodata=s.max_nodata, water_level=cond.water_level)
+        # a section's design slope holds in every realisation (no survey error in it)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            tan, _ = requirement_slope(1.0 / prof.outer_slope, cond.design_outer_slope)
         req = required_level(cond, outer_slope=prof.outer_slope,
-                             crest_level=prof.crest_level, approach=s.approach)
+                             crest_level=prof.crest_level, approach=s.approach, tan_alpha=tan)
         crest[r] = prof.crest_level
         margin[r] = prof.crest_level - req.required_level
     with warnings.catch_warnings():
