@@ -61,6 +61,8 @@ LAYER_LOOK: dict[str, tuple[str, str | None, float]] = {
     "options": ("line", "option", 1.2),
     "epochs": ("point", None, 1.4),
     "changes": ("line", "change", 2.4),
+    "piping_stretches": ("line", None, 1.8),
+    "slip_circles": ("line", None, 0.4),
 }
 #: layer -> label expression (QGIS expression) and the SLD's label field: chainages
 LABELS: dict[str, tuple[str, str]] = {
@@ -75,6 +77,10 @@ LABELS: dict[str, tuple[str, str]] = {
     "epochs": ("\"epoch\" || ' ' || format_number(\"chainage\", 0)", "chainage"),
     "changes": ("\"change\" || ' ' || format_number(\"from_chainage\", 0) || '-' || "
                 "format_number(\"to_chainage\", 0)", "from_chainage"),
+    "piping_stretches": ("\"status\" || ' ' || format_number(\"from_chainage\", 0) || '-' "
+                         "|| format_number(\"to_chainage\", 0)", "from_chainage"),
+    "slip_circles": ("format_number(\"chainage\", 0) || ' F=' || "
+                     "format_number(\"stability_fos\", 2)", "chainage"),
 }
 
 _QML_VERSION = "3.28.0"
