@@ -18,6 +18,7 @@ mkdir -p results
     --dem 2024=sample_gis/dem.tif \
     --conditions sample_gis/standards.csv --frequency sample_gis/frequency.csv \
     --structures-file sample_gis/structures.csv \
+    --title "Vennel levee, Harrowmere polder (invented demo)" \
     --out results/results.gpkg \
     --report results/report.html --overwrite "$@"
 echo "Results: results/results.gpkg (with layer styles), results/results.csv," \

@@ -6,6 +6,7 @@ Run with the QGIS-side interpreter (``scripts/setup_qgis_env.sh``)::
     python tests/qgis_driver.py assess '{"centreline": ..., "out": ...}'
     python tests/qgis_driver.py cancel '{...}'
     python tests/qgis_driver.py plugin path/to/plugin.zip
+    TRAJECTORY_LAYERS='["stations"]' python tests/qgis_driver.py layers results.gpkg
 
 Prints one JSON object on the last line of stdout.
 """
@@ -65,6 +66,21 @@ def report(parameters: dict) -> dict:
 
     result = processing.run("trajectory:crest_report", parameters)
     return {"result": {k: _value(v) for k, v in result.items()}}
+
+
+def layers(gpkg: str) -> dict:
+    """How the desktop GIS opens each spatial layer: renderer, labels, field aliases."""
+    from qgis.core import QgsVectorLayer
+
+    out = {}
+    for name in json.loads(os.environ.get("TRAJECTORY_LAYERS", "[]")):
+        vl = QgsVectorLayer(f"{gpkg}|layername={name}", name, "ogr")
+        fields = vl.fields()
+        out[name] = {"valid": vl.isValid(), "renderer": vl.renderer().type(),
+                     "labels": vl.labelsEnabled(),
+                     "aliases": {fields.at(i).name(): fields.at(i).alias()
+                                 for i in range(fields.count())}}
+    return {"layers": out}
 
 
 def cancel(parameters: dict) -> dict:
@@ -134,6 +150,8 @@ def main(argv: list[str]) -> int:
         register()
         if cmd == "params":
             answer = params()
+        elif cmd == "layers":
+            answer = layers(argv[1])
         elif cmd == "report":
             answer = report(json.loads(argv[1]))
         elif cmd == "assess":

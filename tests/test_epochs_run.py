@@ -123,7 +123,8 @@ def test_report_figures_plot_every_epoch(three):
     res, out = three
     data = load_report_data(out)
     title, frag = epoch_section(data)
-    assert title == "Change between surveys" and frag.count("data:image/png;base64,") == 2
+    # the crest level per survey, the change at every station, the projected year
+    assert title == "Change between surveys" and frag.count("data:image/png;base64,") == 3
     fig = crest_epochs_figure(data.layers["epochs"], data.stations)
     ax = fig.axes[0]
     assert len(ax.lines) == 4  # three surveys and the required level

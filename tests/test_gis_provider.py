@@ -336,3 +336,25 @@ def test_line_id_field_matches_the_cli(qgis_python, two_lines, tmp_path):
     _assert_same_layers(gis_out, cli_out)
     st = pyogrio.read_dataframe(gis_out, layer="stations")
     assert set(st["line_id"]) == {"north-a", "north-b"}
+
+
+# ------------------------------------------------------------- delivery in the GIS
+def test_every_spatial_layer_opens_styled_labelled_and_with_aliases(qgis_python, demo_result):
+    """The oldest supported desktop GIS (3.22; its GDAL reads no alias from
+    gpkg_data_columns) shows the aliases from the default style, with labels on."""
+    from trajectory.outputs.describe import field_title
+    from trajectory.outputs.schema import LAYERS
+
+    _, out = demo_result
+    spatial = [n for n, (g, _) in LAYERS.items() if g is not None]
+    os.environ["TRAJECTORY_LAYERS"] = json.dumps(spatial)
+    try:
+        answer = _drive(qgis_python, "layers", str(out))
+    finally:
+        os.environ.pop("TRAJECTORY_LAYERS")
+    for name in spatial:
+        got = answer["layers"][name]
+        assert got["valid"] and got["labels"], name
+        want = {f.name: field_title(f.name, f.unit) for f in LAYERS[name][1]}
+        assert {k: got["aliases"][k] for k in want} == want, name
+    assert answer["layers"]["options"]["renderer"] == "categorizedSymbol"

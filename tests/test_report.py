@@ -81,6 +81,17 @@ def _piping_figures(gpkg) -> int:
     return min(N_WORST, int((runs["status"] == "short").sum()))
 
 
+def _stability_figures(gpkg) -> int:
+    """One stability figure per worst screened station, at most N_WORST (report_stability.py)."""
+    from trajectory.outputs.profiles import worst_stability_chainages
+    from trajectory.outputs.report_stability import N_WORST
+
+    st = pyogrio.read_dataframe(gpkg, layer="stations", read_geometry=False)
+    if "stability_status" not in st or not (st["stability_status"] != "not_screened").any():
+        return 0
+    return len(worst_stability_chainages(st, n=N_WORST))
+
+
 def test_page_parses_and_is_self_contained(report):
     _, html, page, out = report
     assert page.stack == []
@@ -88,9 +99,11 @@ def test_page_parses_and_is_self_contained(report):
     assert all(r.startswith("data:") or r.startswith("#") for r in page.refs)
     # summary bar, longitudinal, map, cross-sections, margin band, one options figure per
     # deficit stretch (the demo has two), one piping figure per short piping stretch (at
-    # most three), return period held, extra figure; a single survey: no epoch figures
-    assert _piping_figures(out) == 3
-    assert len(page.images) == 4 + 1 + _option_figures(out) + _piping_figures(out) + 1 + 1
+    # most three), one stability figure per worst screened station (the demo has one),
+    # return period held, extra figure; a single survey: no epoch figures
+    assert _piping_figures(out) == 3 and _stability_figures(out) == 1
+    assert len(page.images) == (4 + 1 + _option_figures(out) + _piping_figures(out)
+                                + _stability_figures(out) + 1 + 1)
     for img in page.images:
         head, data = img["src"].split(",", 1)
         assert head == "data:image/png;base64"
@@ -146,7 +159,8 @@ def test_report_command_and_assess_report(demo, report, tmp_path):
     html = (tmp_path / "a.html").read_text(encoding="utf-8")
     assert "a.gpkg" in html
     assert html.count("data:image/png;base64,") == 4 + 1 + _option_figures(
-        tmp_path / "a.gpkg") + _piping_figures(tmp_path / "a.gpkg")
+        tmp_path / "a.gpkg") + _piping_figures(tmp_path / "a.gpkg") + _stability_figures(
+        tmp_path / "a.gpkg")
 
 
 def test_registered_section_builders_run_on_the_report_data(demo_result, monkeypatch):

@@ -13,7 +13,7 @@ import numpy as np
 import pytest
 from colorspacious import cspace_convert, deltaE
 
-from trajectory.outputs.style import LAYER_LOOK, STATUS_COLOURS, qml, sld
+from trajectory.outputs.style import CATEGORIES, LAYER_LOOK, STATUS_COLOURS, qml, sld
 from trajectory.status import STATUSES
 
 
@@ -40,19 +40,23 @@ def test_status_colours_have_distinct_lightness_for_grey_print():
 
 
 @pytest.mark.parametrize("layer", list(LAYER_LOOK))
-def test_qml_and_sld_are_well_formed_and_categorise_by_status(layer):
+def test_qml_and_sld_are_well_formed_and_categorise_by_their_field(layer):
     q = ET.fromstring(qml(layer).split("\n", 1)[1])       # after the DOCTYPE line
     s = ET.fromstring(sld(layer).encode())
     ns = {"sld": "http://www.opengis.net/sld", "ogc": "http://www.opengis.net/ogc"}
     assert s.tag == "{http://www.opengis.net/sld}StyledLayerDescriptor"
-    if LAYER_LOOK[layer][1]:
+    attr = LAYER_LOOK[layer][1]
+    if attr:
+        values = CATEGORIES[attr]
+        if attr == "status":
+            assert values == {x: STATUS_COLOURS[x] for x in STATUSES}
         cats = [c.get("value") for c in q.iter("category")]
-        assert cats == list(STATUSES)
-        assert q.find("renderer-v2").get("attr") == "status"
+        assert cats == list(values)
+        assert q.find("renderer-v2").get("attr") == attr
         literals = [e.text for e in s.iterfind(".//ogc:Literal", ns)]
-        assert literals == list(STATUSES)
+        assert literals == list(values)
         fills = [e.text for e in s.iter("{http://www.opengis.net/sld}CssParameter")
                  if e.get("name") in ("fill", "stroke") and e.text != "#303030"]
-        assert fills == [STATUS_COLOURS[x] for x in STATUSES]
+        assert fills == list(values.values())
     else:
         assert q.find("renderer-v2").get("type") == "singleSymbol"

@@ -25,11 +25,12 @@ from shapely.geometry import LineString, MultiLineString
 
 from . import CAUTION, __version__, diagnosis, stability, uncertainty
 from .chainage import Stations, crossing_sections, make_stations
+from .changes import change_class, change_runs, change_table, combined_sigma, previous_status
 from .checks import check_chunk_memory, sections_off_the_line
 from .conditions import station_soil
 from .demread import DemReading, reading_rules, with_rules
 from .economics import section_economics
-from .epoch_sources import crest_from_result, open_earlier_dem
+from .epoch_sources import open_earlier_dem, verdict_from_result
 from .epochs import Epoch, EpochLevels, assess_epochs, check_order, projected_year
 from .errors import InputError, ParameterError
 from .execution import (
@@ -69,6 +70,7 @@ from .requirement import (
     StationConditions,
     profile_berm,
     required_level,
+    requirement_slope,
     station_conditions,
 )
 from .sections import sample_profiles, section_offsets
@@ -133,6 +135,7 @@ class Result:
     piping_stretches: pd.DataFrame | None = None  # runs of one piping status (piping_screen.py)
     piping_options: pd.DataFrame | None = None  # a piping berm per short stretch (the options
     #                                             layer's fields, written after the crest's)
+    changes: pd.DataFrame | None = None  # stretches of verdict change (changes.py)
 
 
 # ---------------------------------------------------------------- chunks
@@ -201,6 +204,9 @@ def _assess_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
                                                      approach=s.approach)
     prof = dataclasses.replace(prof, flags=prof.flags | np.where(
         extrapolated, FLAGS["slope_extrapolated"], 0))
+    # a section's registered design slope, where given, replaces the measured one
+    tan_measured = tan_c
+    tan_c, design = requirement_slope(tan_c, chunk.conditions.design_outer_slope)
     req = required_level(chunk.conditions, outer_slope=prof.outer_slope,
                          crest_level=prof.crest_level, approach=s.approach, tan_alpha=tan_c,
                          **profile_berm(prof))
@@ -208,14 +214,16 @@ def _assess_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
     out = {f: getattr(prof, f) for f in prof.__dataclass_fields__}
     out.update({f: getattr(req, f) for f in req.__dataclass_fields__})
     out["margin"] = margin
-    out["characteristic_slope"] = 1.0 / tan_c
+    out["characteristic_slope"] = 1.0 / np.where(design, tan_measured, tan_c)
+    out["outer_slope_source"] = np.where(design, "design", "measured").astype(object)
     # survey accuracy carried through to the margin; optional Monte Carlo (uncertainty.py)
     ds = with_rules(_dataset(chunk.dem_path), chunk.dem_reading)  # levels, as sampled
     acc = accuracy_from_settings(s)
     out.update(station_uncertainty(
         prof, chunk.conditions, margin=margin, accuracy=acc, cell=abs(ds.res[0]),
         step=float(chunk.offsets[1] - chunk.offsets[0]), crest_tolerance=s.crest_tolerance,
-        approach=s.approach, watch_band=s.watch_band, **profile_berm(prof)).columns())
+        approach=s.approach, watch_band=s.watch_band, slope_given=design,
+        **profile_berm(prof)).columns())
     # the return period the crest holds, on the section's frequency line (held.py)
     if chunk.lines is not None and chunk.lines.has_line.any():
         out.update(station_held(chunk.lines, chunk.conditions, crest_level=prof.crest_level,
@@ -446,6 +454,9 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
     table["flags"] = add_flag(table["flags"].to_numpy(), off, FLAG_OFF_DEM)
     failed = np.array([e is not None for e in read_error], dtype=bool)
     table["flags"] = add_flag(table["flags"].to_numpy(), failed, FLAG_READ_FAILED)
+    table["flags"] = add_flag(table["flags"].to_numpy(),
+                              table["outer_slope_source"].to_numpy(object) == "design",
+                              "design_slope")
     if s.simulate:
         log.info("Monte Carlo over %d terrain models: median ratio empirical/analytic std "
                  "%s", s.simulate, simulation_summary(table))
@@ -486,8 +497,8 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
     if off_note:
         meta["off_dem"] = off_note
     # every epoch read on the same stations and sections: change, rate, projected year
-    levels, lost = _epoch_levels(inputs, tasks, table, crs, ground_crest, s,
-                                 earlier_rules or {})
+    levels, lost, previous = _epoch_levels(inputs, tasks, table, crs, ground_crest, s,
+                                           earlier_rules or {})
     if lost:  # an earlier survey partly unreadable: its change unknown there
         meta["incomplete"] = " | ".join([meta["incomplete"], *lost] if "incomplete" in meta
                                         else lost)
@@ -501,6 +512,11 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
         table["lowering_rate"].to_numpy(float), table["rate_significant"].to_numpy(bool),
         year_now=float(levels.years[-1]) if len(levels.years) >= 2 else np.nan)
     meta.update(_epoch_metadata(levels, inputs))
+    # what changed since the previous survey: its verdict under today's rules, the classes
+    changes = _previous_verdict(table, previous, match, s, start=s.start_chainage, end=end)
+    if previous.get("label") is not None:
+        meta["previous_survey"] = (f"{previous['label']} ({previous['kind']}): judged under "
+                                   "today's conditions and parameters")
     known = None
     if pl.structures is not None:
         known = structure_table(pl.structures, [] if match is None else [match])
@@ -508,7 +524,7 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
     res = Result(stations=table, stretches=stretches, line=line, crs=crs, offsets=offsets,
                  profiles=profiles, metadata=meta, epochs=levels, options=options,
                  lines={pl.line_id: line}, economics=economics, structures=known,
-                 piping_stretches=pipe_runs, piping_options=berms)
+                 piping_stretches=pipe_runs, piping_options=berms, changes=changes)
     return _LineRun(pl.line_id, line, res, len(st))
 
 
@@ -528,6 +544,43 @@ def _stability_fields(table: pd.DataFrame, cols: dict[str, np.ndarray], soil: So
         table[k] = cols[k]
     table["stability_status"] = stability.status(cols["stability_fos"], required,
                                                  screened=screened)
+
+
+def _previous_verdict(table: pd.DataFrame, previous: dict[str, Any],
+                      match: StructureMatch | None, s: Settings, *, start: float,
+                      end: float) -> pd.DataFrame:
+    """Station fields of the previous verdict and its change (in place); the change table.
+
+    The previous verdict is today's rules on the previous survey: a terrain model
+    read and judged in full (its own slope, so its own required level); an earlier
+    result's crest level against today's required level. Known structures apply as
+    today (a given crest level, an exclusion).
+    """
+    n = len(table)
+    req_now = table["required_level"].to_numpy(float)
+    sig_now = table["margin_sigma"].to_numpy(float)
+    crest = np.asarray(previous.get("crest_level", np.full(n, np.nan)), float)
+    req = np.asarray(previous.get("required_level", req_now), float)
+    sig = np.asarray(previous.get("margin_sigma", sig_now), float)
+    if match is not None:
+        crest = np.where(np.isfinite(match.crest_level), match.crest_level, crest)
+    margin_prev = crest - req
+    excluded = None if match is None else match.effect == "exclude"
+    status_prev = previous_status(margin_prev, watch_band=s.watch_band, excluded=excluded)
+    if "kind" not in previous:
+        status_prev = np.full(n, None, dtype=object)
+    table["status_previous"] = status_prev
+    table["status_delivered"] = previous.get("delivered", np.full(n, None, dtype=object))
+    table["margin_previous"] = margin_prev
+    table["margin_change"] = table["margin"].to_numpy(float) - margin_prev
+    table["change_sigma"] = np.where(np.isfinite(margin_prev), combined_sigma(sig_now, sig),
+                                     np.nan)
+    table["verdict_change"] = change_class(table["status"].to_numpy(object), status_prev,
+                                           table["margin"].to_numpy(float), margin_prev,
+                                           table["change_sigma"].to_numpy(float))
+    runs = change_runs(table["chainage"].to_numpy(float), table["verdict_change"].to_numpy(object),
+                       start=start, end=end)
+    return change_table(table, runs)
 
 
 def _wgs84(crs: CRS, x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -624,7 +677,10 @@ def _combine(runs: list[_LineRun], ids: list[str]) -> Result:
         economics=pd.concat([r.economics for r in rs], ignore_index=True),
         structures=_combine_structures([r.structures for r in rs]),
         piping_stretches=pd.concat([r.piping_stretches for r in rs], ignore_index=True),
-        piping_options=pd.concat([r.piping_options for r in rs], ignore_index=True))
+        piping_options=pd.concat([r.piping_options for r in rs], ignore_index=True),
+        changes=pd.concat([r.changes for r in rs if r.changes is not None],
+                          ignore_index=True) if any(r.changes is not None for r in rs)
+        else None)
 
 
 def _survey_sigma(table: pd.DataFrame, s: Settings) -> np.ndarray:
@@ -655,26 +711,43 @@ def _check_epochs(inputs: RunInputs, dem: DemInfo) -> None:
 
 def _epoch_levels(inputs: RunInputs, tasks: list[_Chunk], table: pd.DataFrame, crs: CRS,
                   crest: np.ndarray, s: Settings,
-                  rules: dict[str, DemReading]) -> tuple[EpochLevels, list[str]]:
+                  rules: dict[str, DemReading]
+                  ) -> tuple[EpochLevels, list[str], dict[str, Any]]:
     """Crest level per epoch: earlier terrain models read like the latest, results matched.
 
     A part of an earlier terrain model that cannot be read is contained like in
     the latest (its stations have no level of that survey); the second value
-    names each such part for the run's ``incomplete`` entry.
+    names each such part for the run's ``incomplete`` entry. The third holds the
+    previous survey's reading for its verdict (:func:`_previous_verdict`): a terrain
+    model judged in full under today's rules, or an earlier result's crest level,
+    and the latest earlier result's delivered status (``delivered``).
     """
     columns, lost = [], []
+    previous: dict[str, Any] = {}
     xy = table[["x", "y"]].to_numpy(float)
-    for e in inputs.earlier:
+    for j, e in enumerate(inputs.earlier):
+        is_previous = j == len(inputs.earlier) - 1
         if e.kind == "result":
-            columns.append(crest_from_result(e, crs=crs, chainage=table["chainage"].to_numpy(),
-                                             xy=xy))
+            got = verdict_from_result(e, crs=crs, chainage=table["chainage"].to_numpy(), xy=xy)
+            columns.append(got["crest_level"])
+            previous["delivered"] = got["status"]  # the latest earlier result's own verdict
+            if is_previous:
+                previous.update(kind="result", label=e.label, crest_level=got["crest_level"])
             continue
         log.info("reading survey %s (%s)", e.label, e.path)
         again = [dataclasses.replace(t, dem_path=e.path, dem_reading=rules.get(e.path))
                  for t in tasks]
-        parts = fill_failures(list(_map(Guarded(_crest_chunk, _one_station), again, s)),
-                              source=e.path)
+        # the previous survey is judged in full under today's rules (changes.py)
+        if is_previous:
+            again = [dataclasses.replace(t, settings=t.settings.replace(simulate=0))
+                     for t in again]
+        fn = _assess_chunk if is_previous else _crest_chunk
+        parts = fill_failures(list(_map(Guarded(fn, _one_station), again, s)), source=e.path)
         columns.append(np.concatenate([p["crest_level"] for p in parts]))
+        if is_previous:
+            previous.update({k: np.concatenate([p[k] for p in parts])
+                             for k in ("crest_level", "required_level", "margin_sigma")})
+            previous.update(kind="dem", label=e.label)
         errors = np.concatenate([p[READ_ERROR] for p in parts])
         fails = failure_runs(table["chainage"].to_numpy(float), errors)
         if fails:
@@ -685,7 +758,7 @@ def _epoch_levels(inputs: RunInputs, tasks: list[_Chunk], table: pd.DataFrame, c
              if inputs.earlier else np.array([np.nan]))
     sources = (*(Path(e.path).name for e in inputs.earlier), Path(inputs.dem).name)
     return EpochLevels(labels=labels, years=years, sources=sources,
-                       crest=np.stack([*columns, crest], axis=1)), lost
+                       crest=np.stack([*columns, crest], axis=1)), lost, previous
 
 
 def _epoch_metadata(levels: EpochLevels, inputs: RunInputs) -> dict[str, Any]:
@@ -767,7 +840,7 @@ def _station_table(st: Stations, side: np.ndarray, cond: Conditions, sec: np.nda
     for name in ("outer_berm_level", "outer_berm_width", "outer_berm_slope", "inner_berm_level",
                  "inner_berm_width", "inner_berm_slope", "outer_lower_slope",
                  "characteristic_slope", "crest_mean", "crest_level_outer", "crest_hole",
-                 "outer_slope_steepest", "inner_slope_steepest"):
+                 "outer_slope_steepest", "inner_slope_steepest", "outer_slope_source"):
         df[name] = cols[name]
     df["outer_breaks"] = breaks_text(cols["outer_breaks"])
     df["inner_breaks"] = breaks_text(cols["inner_breaks"])

@@ -76,6 +76,9 @@ SECTION_COLUMNS: dict[str, tuple[str, str]] = {
                                 "linearly between"),
     "fill_settlement": ("m", "0 <= number <= 10; settlement allowance of new fill for the "
                              "reinforcement options (empty: 0)"),
+    "design_outer_slope": ("n of 1:n", "1 <= number <= 20; the registered design outer slope: "
+                                       "where given, the requirement uses it instead of the "
+                                       "measured characteristic slope (flag design_slope)"),
 }
 #: Optional columns of the inner-slope stability screening (trajectory.stability): one
 #: homogeneous soil per section, the screening level. A section that gives none of them
@@ -149,6 +152,7 @@ _NUMERIC_RULES: dict[str, tuple[float | None, float | None, bool]] = {
     "soil_cohesion": (0.0, 500.0, False),
     "soil_friction_angle": (0.0, 60.0, False),
     "required_safety_factor": (1.0, 3.0, False),
+    "design_outer_slope": (1.0, 20.0, False),
     **LINE_RULES,
     **PIPING_RULES,
 }

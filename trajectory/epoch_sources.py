@@ -30,6 +30,17 @@ def open_earlier_dem(epoch: Epoch, *, latest: DemInfo) -> DemInfo:
 def crest_from_result(epoch: Epoch, *, crs: CRS, chainage: np.ndarray,
                       xy: np.ndarray) -> np.ndarray:
     """Crest level of an earlier result GeoPackage at this run's stations (NaN: none there)."""
+    return verdict_from_result(epoch, crs=crs, chainage=chainage, xy=xy)["crest_level"]
+
+
+#: fields of an earlier result's verdict read with its crest level (where the file has them)
+VERDICT_FIELDS = ("status", "margin", "margin_sigma")
+
+
+def verdict_from_result(epoch: Epoch, *, crs: CRS, chainage: np.ndarray,
+                        xy: np.ndarray) -> dict[str, np.ndarray]:
+    """Crest level and the delivered verdict (status, margin, margin_sigma) of an earlier
+    result GeoPackage at this run's stations (NaN / None where it has none)."""
     p = Path(epoch.path)
     if not p.is_file():
         raise InputFileError(f"{p}: earlier result not found")
@@ -41,7 +52,9 @@ def crest_from_result(epoch: Epoch, *, crs: CRS, chainage: np.ndarray,
         raise EpochError(f"{p}: no 'stations' layer; give a result GeoPackage written by "
                          "trajectory assess")
     try:
-        old = pyogrio.read_dataframe(p, layer="stations", columns=["chainage", "crest_level"])
+        have = {str(n) for n in pyogrio.read_info(p, layer="stations")["fields"]}
+        wanted = ["chainage", "crest_level", *(f for f in VERDICT_FIELDS if f in have)]
+        old = pyogrio.read_dataframe(p, layer="stations", columns=wanted)
     except Exception as exc:  # a truncated or damaged file: pyogrio raises several kinds
         raise InputFileError(f"{p}: the earlier result cannot be read ({exc}); give a complete "
                              "result GeoPackage or leave out this --compare") from exc
@@ -55,8 +68,17 @@ def crest_from_result(epoch: Epoch, *, crs: CRS, chainage: np.ndarray,
     old_xy = np.stack([old.geometry.x.to_numpy(), old.geometry.y.to_numpy()], 1)
     idx = match_stations(chainage, xy, old["chainage"].to_numpy(float), old_xy,
                          source=str(p))
-    level = old["crest_level"].to_numpy(float)
-    return np.where(idx >= 0, level[np.clip(idx, 0, None)], np.nan)
+    hit, at = idx >= 0, np.clip(idx, 0, None)
+    out = {"crest_level": np.where(hit, old["crest_level"].to_numpy(float)[at], np.nan)}
+    for f in VERDICT_FIELDS:
+        if f == "status":
+            v = (old[f].to_numpy(object) if f in old.columns
+                 else np.full(len(old), None, object))
+            out[f] = np.where(hit, v[at] if len(v) else None, None).astype(object)
+        else:
+            v = old[f].to_numpy(float) if f in old.columns else np.full(len(old), np.nan)
+            out[f] = np.where(hit, v[at] if len(v) else np.nan, np.nan)
+    return out
 
 
 def _crs_name(crs: CRS | None) -> str:

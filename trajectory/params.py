@@ -113,6 +113,8 @@ class Settings:
                        "exceed to count (one-sided; 1.645 = 95 %).",
                        unit="-", min=0.0, min_exclusive=True, max=10.0, group="epochs")
     # --- stretches and reporting (outputs)
+    title: str = _p("", "Name of the levee (or a title) shown at the head of the report and "
+                    "recorded in the run metadata; empty: a generic title.", group="outputs")
     min_stretch_length: float = _p(50.0, "Runs of stations shorter than this take the status of a "
                                    "more severe neighbouring stretch (never a milder one), so "
                                    "one noisy station does not split a stretch; 0 = off.",

@@ -82,6 +82,7 @@ class StationConditions:
     near_structure: np.ndarray | None = None   # bool, for 'cfr_riverine'
     upstream_share: np.ndarray | None = None   # 0..1 of the 0.5 ft, 'cfr_riverine'
     period_from_tp: np.ndarray | None = None   # bool: tm10 derived as Tp / 1.1
+    design_outer_slope: np.ndarray | None = None  # n of 1:n; NaN: use the measured slope
 
     def take(self, idx: np.ndarray | slice) -> StationConditions:
         """The conditions of stations ``idx`` (optional fields that are None stay None)."""
@@ -139,6 +140,24 @@ def profile_berm(prof: object) -> dict[str, np.ndarray]:
     if width is None or level is None:
         return {}
     return {"berm_width": np.asarray(width, float), "berm_level": np.asarray(level, float)}
+
+
+def requirement_slope(tan_measured: np.ndarray,
+                      design_outer_slope: np.ndarray | None) -> tuple[np.ndarray, np.ndarray]:
+    """The outer slope tangent the requirement uses, and where it is the design slope.
+
+    A section's registered design outer slope (1:n, conditions column
+    ``design_outer_slope``) replaces the measured characteristic slope (EurOtop 2018
+    Section 5.3.4) where given: assessing on the design profile is common practice
+    and keeps the required level from jittering with the survey between stations.
+    """
+    tan = np.asarray(tan_measured, float)
+    if design_outer_slope is None:
+        return tan, np.zeros(tan.shape, bool)
+    n = np.asarray(design_outer_slope, float)
+    given = np.isfinite(n) & (n > 0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(given, 1.0 / np.where(given, n, 1.0), tan), given
 
 
 def _full(x: object, n: int, dtype: type = float) -> np.ndarray:
@@ -375,4 +394,4 @@ def station_conditions(table: pd.DataFrame, idx: np.ndarray,
         fixed_freeboard=col("fixed_freeboard"),
         near_structure=np.nan_to_num(near) > 0,
         upstream_share=along("upstream_share", "upstream_share_end", 0.0),
-        period_from_tp=from_tp)
+        period_from_tp=from_tp, design_outer_slope=col("design_outer_slope"))

@@ -143,6 +143,7 @@ class DemoSection:
     aquifer_k: float = float("nan")          # m/s
     aquifer_thickness: float = float("nan")  # m
     blanket_thickness: float = float("nan")  # m
+    design_outer_slope: float = float("nan")  # registered design slope 1:n (empty: measured)
 
 
 SECTION_COLUMNS: tuple[str, ...] = (
@@ -150,6 +151,7 @@ SECTION_COLUMNS: tuple[str, ...] = (
     "wave_angle", "q_allow", "sea_level_rise", "settlement", "roughness", "min_freeboard",
     "polder_level", "subsoil_class", "aquifer_d70", "aquifer_k", "aquifer_thickness",
     "blanket_thickness",
+    "design_outer_slope",
 )
 #: the text columns of the sections table (the others are numbers; empty where NaN)
 _TEXT_COLUMNS = ("section_id", "subsoil_class")
@@ -167,7 +169,9 @@ _DEFAULT_SECTIONS: tuple[DemoSection, ...] = (
     # Lane on coarse gravel: held where the inner (piping) berm lies, short elsewhere
     DemoSection("VN-03", 1500.0, 2300.0, 4.35, 0.80, 3.6, 35.0, 10.0, 0.25, 0.15, 0.9, 0.5,
                 polder_level=1.0, subsoil_class="coarse_gravel"),
-    DemoSection("VN-04", 2300.0, 3000.0, 4.55, 0.45, 2.6, 40.0, 1.0, 0.15, 0.05, 1.0, 0.5),
+    # VN-04 is assessed on its registered design slope, 1:3 as built (no slope jitter)
+    DemoSection("VN-04", 2300.0, 3000.0, 4.55, 0.45, 2.6, 40.0, 1.0, 0.15, 0.05, 1.0, 0.5,
+                design_outer_slope=3.0),
 )
 
 

@@ -33,7 +33,7 @@ import numpy as np
 from scipy.special import erfc
 
 from .errors import ParameterError
-from .requirement import StationConditions, required_level
+from .requirement import StationConditions, required_level, requirement_slope
 from .status import Stretches, classify
 
 log = logging.getLogger(__name__)
@@ -214,11 +214,14 @@ class StationUncertainty:
 def station_uncertainty(prof: Any, cond: StationConditions, *, margin: np.ndarray,
                         accuracy: VerticalAccuracy, step: float, cell: float,
                         crest_tolerance: float, approach: str, watch_band: float,
+                        slope_given: np.ndarray | None = None,
                         **req_kwargs: Any) -> StationUncertainty:
     """Propagate the terrain model's accuracy through crest, slope and requirement.
 
     ``prof`` is a :class:`profile.ProfileMetrics`; the crest tolerance used per
     station is the one profile reading used, max(crest_tolerance, 3 x noise).
+    Where ``slope_given`` (a design slope, not the survey's) the requirement
+    carries no survey error.
     """
     tol = np.maximum(crest_tolerance, 3.0 * np.nan_to_num(prof.noise))
     c_sig, c_rand = crest_sigma(prof.crest_cells, accuracy=accuracy, step=step, cell=cell,
@@ -228,6 +231,8 @@ def station_uncertainty(prof: Any, cond: StationConditions, *, margin: np.ndarra
                                       crest_level=prof.crest_level, approach=approach,
                                       **req_kwargs)
     r_sig = np.abs(deriv) * s_sig
+    if slope_given is not None:
+        r_sig = np.where(slope_given, 0.0, r_sig)
     m_sig = np.sqrt(c_sig**2 + r_sig**2)
     m_sig = np.where(np.isnan(margin), np.nan, m_sig)
     return StationUncertainty(
@@ -369,8 +374,11 @@ def simulate(ds: Any, stations: Any, side: np.ndarray, offsets: np.ndarray,
         prof = read_profiles(z, offsets, object_width=s.object_width,
                              crest_search=s.crest_search, crest_tolerance=s.crest_tolerance,
                              max_nodata=s.max_nodata, water_level=cond.water_level)
+        # a section's design slope holds in every realisation (no survey error in it)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            tan, _ = requirement_slope(1.0 / prof.outer_slope, cond.design_outer_slope)
         req = required_level(cond, outer_slope=prof.outer_slope,
-                             crest_level=prof.crest_level, approach=s.approach)
+                             crest_level=prof.crest_level, approach=s.approach, tan_alpha=tan)
         crest[r] = prof.crest_level
         margin[r] = prof.crest_level - req.required_level
     with warnings.catch_warnings():

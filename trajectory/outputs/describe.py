@@ -12,7 +12,7 @@ from __future__ import annotations
 import sqlite3
 
 from ..status import STATUSES
-from .schema import LAYERS
+from .schema import LAYER_DESCRIPTIONS, LAYERS
 
 SCHEMA_EXTENSION = "gpkg_schema"
 SCHEMA_DEFINITION = "http://www.geopackage.org/spec/#extension_schema"
@@ -44,8 +44,12 @@ _DDL = (
 )
 
 
-def _title(name: str, unit: str) -> str:
+def field_title(name: str, unit: str) -> str:
+    """A field's title and alias: its name with the unit, e.g. ``crest_level [m]``."""
     return f"{name} [{unit}]" if unit and unit != "-" else name
+
+
+_title = field_title
 
 
 def write_data_columns(con: sqlite3.Connection) -> int:
@@ -60,12 +64,17 @@ def write_data_columns(con: sqlite3.Connection) -> int:
                     "constraint_type, value, description) VALUES (?, 'enum', ?, ?)",
                     (STATUS_CONSTRAINT, status, _STATUS_MEANING[status]))
     present = {r[0] for r in con.execute("SELECT table_name FROM gpkg_contents")}
+    # `name` and `title` both carry the alias: GDAL (3.7 and later) reads one of them as the
+    # field's alternative name, which desktop GIS show as the alias
     rows = [
-        (layer, f.name, f.name, _title(f.name, f.unit),
+        (layer, f.name, _title(f.name, f.unit), _title(f.name, f.unit),
          f"{f.description} ({f.unit})" if f.unit and f.unit != "-" else f.description,
          STATUS_CONSTRAINT if f.name == "status" else None)
         for layer, (_, fields) in LAYERS.items() if layer in present for f in fields
     ]
     con.executemany("INSERT OR REPLACE INTO gpkg_data_columns (table_name, column_name, name, "
                     "title, description, constraint_name) VALUES (?, ?, ?, ?, ?, ?)", rows)
+    # what each layer is, in gpkg_contents (shown by GIS as the layer's abstract)
+    con.executemany("UPDATE gpkg_contents SET description = ? WHERE table_name = ?",
+                    [(LAYER_DESCRIPTIONS[t], t) for t in present if t in LAYER_DESCRIPTIONS])
     return len(rows)

@@ -19,7 +19,7 @@ from ..uncertainty import stretch_uncertainty
 from .atomic import atomic_path, refuse_overwrite
 from .describe import write_data_columns
 from .epochs_layer import epoch_layer, epoch_stretch_columns
-from .profiles import profile_table, stored_chainages, worst_stability_chainages
+from .profiles import encode_levels, profile_table, stored_chainages, worst_stability_chainages
 from .schema import LAYERS, field_names
 from .style import sld_paths, write_layer_styles, write_slds
 
@@ -49,6 +49,10 @@ def cross_section_layer(result) -> gpd.GeoDataFrame:
     geom = shapely.linestrings(coords)
     data = {c: t[c].to_numpy() for c in t.columns}
     data["half_width"] = np.full(len(t), hw)
+    off = np.asarray(result.offsets, float)
+    data["profile_start"] = np.full(len(t), off[0] if off.size else np.nan)
+    data["profile_step"] = np.full(len(t), off[1] - off[0] if off.size > 1 else np.nan)
+    data["profile_levels"] = encode_levels(result.profiles)
     return _frame(data, "cross_sections", geom, result.crs)
 
 
@@ -207,7 +211,39 @@ def option_layer(result, *, start: float, reverse: bool) -> gpd.GeoDataFrame:
     geoms = _pieces_along(result, opt["line_id"].to_numpy(object), opt["from_chainage"],
                           opt["to_chainage"], start=start, reverse=reverse)
     data = option_frame(result)
+    geoms = _offset_options(geoms, data, result.stations)
     return _frame({c: data[c].to_numpy() for c in cols}, "options", geoms, result.crs)
+
+
+#: options of a stretch are drawn parallel to it, this far apart, on the land side (m)
+OPTION_OFFSET_STEP = 4.0
+_OPTION_ORDER = {(b, o): k for k, (b, o) in enumerate(
+    [(b, o) for b in ("whole_stretch", "every_station")
+     for o in ("raise", "outer_berm", "combined")], start=1)}
+
+
+def _offset_options(geoms: list, data: pd.DataFrame, stations: pd.DataFrame) -> list:
+    """Each option's line moved k x OPTION_OFFSET_STEP to the land side (k by basis and
+    option), so the rows of one stretch lie side by side instead of on top of each other."""
+    k = np.array([_OPTION_ORDER.get((b, o), 7) for b, o in
+                  zip(data["basis"], data["option"], strict=True)], float)
+    ch = stations["chainage"].to_numpy(float)
+    lid = stations["line_id"].to_numpy(object) if "line_id" in stations \
+        else np.full(len(stations), "", object)
+    left = stations["water_side"].to_numpy(object) == "left"
+    out = []
+    for g, kk, a, line in zip(geoms, k, data["from_chainage"].to_numpy(float),
+                              data["line_id"].to_numpy(object), strict=True):
+        on = np.flatnonzero(lid == line)
+        i = on[np.argmin(np.abs(ch[on] - a))] if on.size else None
+        # shapely offsets + to the left of the line's direction; the land is opposite the water
+        sign = -1.0 if i is None or left[i] else 1.0
+        if g is None or g.is_empty:
+            out.append(g)
+            continue
+        moved = shapely.offset_curve(g, sign * kk * OPTION_OFFSET_STEP)
+        out.append(moved if not moved.is_empty else g)
+    return out
 
 
 def option_frame(result) -> pd.DataFrame:
@@ -242,6 +278,24 @@ def piping_stretch_layer(result, *, start: float, reverse: bool) -> gpd.GeoDataF
     geoms = _pieces_along(result, data["line_id"].to_numpy(object), data["from_chainage"],
                           data["to_chainage"], start=start, reverse=reverse)
     return _frame({c: data[c].to_numpy() for c in cols}, "piping_stretches", geoms, result.crs)
+
+
+def change_frame(result) -> pd.DataFrame:
+    """The stretches of verdict change (empty table without a previous survey)."""
+    cols = field_names("changes")
+    t = getattr(result, "changes", None)
+    if t is None or t.empty:
+        return pd.DataFrame({c: pd.Series([], dtype=object if f.kind == "str" else float)
+                             for c, f in zip(cols, LAYERS["changes"][1], strict=True)})
+    return t[cols].reset_index(drop=True)
+
+
+def change_layer(result, *, start: float, reverse: bool) -> gpd.GeoDataFrame:
+    """The stretches of verdict change on the line (changes.py)."""
+    data = change_frame(result)
+    geoms = _pieces_along(result, data["line_id"].to_numpy(object), data["from_chainage"],
+                          data["to_chainage"], start=start, reverse=reverse) if len(data) else []
+    return gpd.GeoDataFrame(data, geometry=geoms, crs=result.crs)
 
 
 def structure_frame(result) -> pd.DataFrame:
@@ -289,6 +343,7 @@ def write_geopackage(result, path: str | Path, *, overwrite: bool = False,
         "structures": structure_frame(result),
         "piping_stretches": piping_stretch_layer(result, start=start, reverse=reverse),
         "slip_circles": slip_circle_layer(result),
+        "changes": change_layer(result, start=start, reverse=reverse),
     }
     assert set(layers) == set(LAYERS)
     slds = sld_paths(path) if styles else {}
@@ -296,7 +351,11 @@ def write_geopackage(result, path: str | Path, *, overwrite: bool = False,
         refuse_overwrite(p, overwrite=overwrite)
     with atomic_path(path, overwrite=overwrite) as tmp:
         for name, frame in layers.items():
-            pyogrio.write_dataframe(frame, tmp, layer=name, driver="GPKG")
+            # an empty spatial layer keeps its contract geometry type (none to infer it from)
+            kind = LAYERS[name][0] if isinstance(frame, gpd.GeoDataFrame) and frame.empty \
+                else None
+            pyogrio.write_dataframe(frame, tmp, layer=name, driver="GPKG",
+                                    **({"geometry_type": kind} if kind else {}))
         # field descriptions and default styles, inside the temp file before the rename
         with contextlib.closing(sqlite3.connect(tmp)) as con, con:
             write_data_columns(con)

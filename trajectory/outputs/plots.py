@@ -151,38 +151,88 @@ def _nice_step(x: float) -> float:
     return float(min((m * e for m in (1, 2, 5, 10) if m * e >= x), default=10 * e))
 
 
+def parse_breaks(text: object) -> np.ndarray:
+    """A breakline text (``offset/level`` pairs, stations layer) as an (k, 2) array."""
+    if not isinstance(text, str) or not text.strip():
+        return np.empty((0, 2))
+    return np.array([[float(v) for v in pair.split("/")] for pair in text.split()], float)
+
+
+#: a breakline piece flatter than this (gradient) is a berm (the profile's flat limit, 1:12)
+BERM_GRADIENT = 1.0 / 12.0
+
+
+def _draw_breaks(ax, pts: np.ndarray, *, first: bool) -> None:
+    """One side's breakline: crest edge, slope segments, berms, toe (from the stations)."""
+    if pts.shape[0] == 0:
+        return
+    ax.plot(pts[:, 0], pts[:, 1], color="#7A3E9D", lw=0.9, ls=(0, (3, 1.5)),
+            label="slope segments (breakline)" if first else None)
+    dx, dz = np.diff(pts[:, 0]), np.diff(pts[:, 1])
+    with np.errstate(divide="ignore", invalid="ignore"):
+        flat = np.abs(dz) <= BERM_GRADIENT * np.abs(dx)
+    for k in np.flatnonzero(flat):
+        ax.plot(pts[k:k + 2, 0], pts[k:k + 2, 1], color="#1B7837", lw=3.2,
+                solid_capstyle="butt", label="berm" if first and k == flat.argmax() else None)
+    ax.plot(pts[0, 0], pts[0, 1], ls="none", marker="D", ms=4, color="black",
+            label="crest edge" if first else None)
+    ax.plot(pts[-1, 0], pts[-1, 1], ls="none", marker="^", ms=5, color="#7A3E9D",
+            label="toe" if first else None)
+    if pts.shape[0] > 2:
+        ax.plot(pts[1:-1, 0], pts[1:-1, 1], ls="none", marker="o", ms=2.5, color="#7A3E9D",
+                label="slope break" if first else None)
+
+
 def cross_sections(profiles: pd.DataFrame, stations: pd.DataFrame,
                    chainages: np.ndarray) -> Figure | None:
-    """Profiles of the given stations: ground, water level, required level, measured crest."""
+    """Profiles of the given stations: ground, the picked crest edges, slope segments,
+    berms and toes, water on the water side only, the required level and the crest."""
     chainages = np.asarray(chainages, float)
     if chainages.size == 0:
         return None
     ncol = 2 if chainages.size > 1 else 1
     nrow = int(np.ceil(chainages.size / ncol))
-    fig = _figure(10.0 if ncol == 2 else 6.0, 2.8 * nrow)
+    fig = _figure(10.0 if ncol == 2 else 6.0, 3.0 * nrow)
     by_ch = stations.set_index("chainage")
+    handles: dict[str, object] = {}
     for k, ch in enumerate(chainages):
         ax = fig.add_subplot(nrow, ncol, k + 1)
         p = profiles[np.isclose(profiles["chainage"], ch)]
         st = by_ch.loc[ch]
         off, z = p["offset"].to_numpy(float), p["level"].to_numpy(float)
         ax.plot(off, z, color="#5A4632", lw=1.1, label="ground (DEM)")
+        cw, co, cl = (float(st[k_]) for k_ in ("crest_width", "crest_offset", "crest_level"))
         swl = float(st["water_level"] + st["sea_level_rise"])
-        ax.axhline(swl, color="#2B6FA8", lw=1.0, ls=":", label="water level + sea-level rise")
+        # water only on the water side (+ offsets), where the ground lies below it
+        centre = co if np.isfinite(co) else 0.0
+        wet = (off > centre) & np.isfinite(z) & (z < swl)
+        if wet.any():
+            ax.fill_between(off, z, swl, where=wet, color="#9CC3E6", alpha=0.6, lw=0,
+                            interpolate=True)
+            lo_w = float(off[wet].min())
+            ax.hlines(swl, lo_w, float(off.max()), color="#2B6FA8", lw=1.0,
+                      label="water level + sea-level rise")
         ax.axhline(float(st["required_level"]), color=INK, lw=1.1, ls="--",
                    label="required crest level")
-        cw, co, cl = (float(st[k_]) for k_ in ("crest_width", "crest_offset", "crest_level"))
         if np.isfinite(cl):
             ax.plot([co - cw / 2, co + cw / 2], [cl, cl], color=STATUS_COLOURS["deficit"]
                     if st["status"] == "deficit" else "black", lw=3.0,
                     solid_capstyle="butt", label="measured crest")
+        for j, side in enumerate(("outer_breaks", "inner_breaks")):
+            if side in st.index:
+                _draw_breaks(ax, parse_breaks(st[side]), first=j == 0)
+        ax.annotate("water side →", (1.0, 1.0), xycoords="axes fraction", xytext=(-3, -10),
+                    textcoords="offset points", ha="right", fontsize=7, color="#2B6FA8")
+        ax.annotate("← land side", (0.0, 1.0), xycoords="axes fraction", xytext=(3, -10),
+                    textcoords="offset points", ha="left", fontsize=7, color="#5A4632")
         margin = float(st["margin"])
         ax.set_title(f"chainage {ch:,.0f} m  ·  section {st['section_id']}  ·  "
                      f"margin {margin:+.2f} m ({st['status']})", fontsize=8)
         ax.set_xlabel("offset from centreline (m), + towards the water")
         ax.set_ylabel("level (m)")
         ax.grid(alpha=0.3, lw=0.4)
-        if k == 0:
-            fig.legend(*ax.get_legend_handles_labels(), fontsize=7, ncol=4,
-                       loc="outside upper center", frameon=False)
+        for h, lab in zip(*ax.get_legend_handles_labels(), strict=True):
+            handles.setdefault(lab, h)
+    fig.legend(list(handles.values()), list(handles), fontsize=7, ncol=5,
+               loc="outside upper center", frameon=False)
     return fig

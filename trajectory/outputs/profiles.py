@@ -86,3 +86,58 @@ def profile_table(chainage: np.ndarray, offsets: np.ndarray, profiles: np.ndarra
         "offset": np.tile(np.asarray(offsets, float), idx.size),
         "level": np.asarray(profiles, float)[idx].ravel(),
     })
+
+
+#: characters per level in the text: a separator and up to 8 for sign and digits (levels
+#: are checked to lie within -500 to 9000 m, i.e. at most 7 digits of millimetres)
+_WIDTH = 9
+_DIGITS = 7
+
+
+def encode_levels(profiles: np.ndarray) -> np.ndarray:
+    """Each row of ``profiles`` (m) as text: whole millimetres, right-aligned, space-separated.
+
+    NaN (nodata) is written ``nan``; :func:`decode_levels` reads it back in metres. The
+    characters are built for all rows at once from the digits (the writer's hot path:
+    formatting a million numbers one by one costs about half a second).
+    """
+    z = np.asarray(profiles, float)
+    n = z.shape[0]
+    if z.size == 0:
+        return np.empty(n, dtype=object)
+    ok = np.isfinite(z)
+    mm = np.where(ok, np.rint(np.where(ok, z, 0.0) * 1000.0), 0.0).astype(np.int64)
+    q = np.minimum(np.abs(mm), 10**_DIGITS - 1).astype(np.int32)
+    chars = np.full(z.shape + (_WIDTH,), ord(" "), dtype=np.uint8)
+    ndig = np.ones(z.shape, dtype=np.int8)
+    chars[..., _WIDTH - 1] = ord("0") + q % 10
+    for p in range(1, _DIGITS):
+        q //= 10
+        show = q > 0
+        ndig[show] = p + 1
+        chars[..., _WIDTH - 1 - p] = np.where(show, ord("0") + q % 10, ord(" "))
+    sign_at = _WIDTH - 1 - ndig.astype(np.int64)
+    rows, cols = np.nonzero(mm < 0)
+    chars[rows, cols, sign_at[rows, cols]] = ord("-")
+    chars[~ok] = np.frombuffer(b" " * (_WIDTH - 3) + b"nan", dtype=np.uint8)
+    flat = chars.reshape(n, -1)
+    return np.array([row.tobytes().decode("ascii").strip() for row in flat], dtype=object)
+
+
+def decode_levels(text: str | None) -> np.ndarray:
+    """The levels (m) of one ``profile_levels`` text (empty for none)."""
+    if not text:
+        return np.empty(0)
+    return np.array(str(text).split(), dtype=float) / 1000.0
+
+
+def expand_profiles(sections: pd.DataFrame) -> pd.DataFrame:
+    """Long table (chainage, offset, level) from the cross-sections' stored profiles."""
+    rows = []
+    for r in sections.itertuples(index=False):
+        z = decode_levels(getattr(r, "profile_levels", None))
+        off = float(r.profile_start) + float(r.profile_step) * np.arange(z.size)
+        rows.append(pd.DataFrame({"chainage": float(r.chainage), "offset": off, "level": z}))
+    if not rows:
+        return pd.DataFrame({"chainage": [], "offset": [], "level": []})
+    return pd.concat(rows, ignore_index=True)

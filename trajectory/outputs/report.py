@@ -31,6 +31,7 @@ from ..errors import InputFileError
 from ..status import STATUSES
 from . import (
     plots,
+    report_changes,
     report_epochs,
     report_piping,
     report_remedies,
@@ -74,6 +75,7 @@ SECTION_BUILDERS: tuple[SectionBuilder, ...] = (
     report_structures.structure_section,      # known structures and exceptions applied
     report_uncertainty.uncertainty_section,   # how sure each verdict is
     report_epochs.epoch_section,              # several surveys (None for one)
+    report_changes.changes_section,           # verdict changes since the previous survey
     report_remedies.remedy_section,           # reinforcement options
     report_piping.piping_section,             # piping: seepage length, piping berms
     report_stability.stability_section,       # inner-slope stability and berms
@@ -172,6 +174,33 @@ def _worst_table(table: pd.DataFrame) -> str:
     return f'<table class="worst">{head}{"".join(rows)}</table>'
 
 
+#: the report's heading where the run gives no --title
+DEFAULT_TITLE = "Levee crest screening"
+
+
+def report_title(meta: dict[str, str]) -> str:
+    """The report's heading: the run's ``title`` parameter (the levee's name), else generic."""
+    given = str(meta.get("param_title", "") or "").strip()
+    return f"{given} – levee crest screening" if given else DEFAULT_TITLE
+
+
+def _header_table(meta: dict[str, str], stations: pd.DataFrame) -> str:
+    """What the year's deliverable states first: surveys, water side, watch band, assessed."""
+    surveys = str(meta.get("epochs", "") or meta.get("input_dem", "")) or "–"
+    sides = stations["water_side"].astype(str).value_counts() if "water_side" in stations \
+        else pd.Series(dtype=int)
+    side_text = "; ".join(f"{k} of the centreline's digitised direction ({v} stations)"
+                          for k, v in sides.items()) or escape(str(meta.get("param_water_side",
+                                                                            "–")))
+    band = _num(meta.get("param_watch_band", np.nan), ".2f")
+    rows = [("Survey(s), oldest first", surveys), ("Water side", side_text),
+            ("Watch band", f"{band} m: margins from 0 up to it are watch, not ok"),
+            ("Run", str(meta.get("run_time", "–")))]
+    body = "".join(f'<tr><th>{escape(k)}</th><td data-key="{escape(k)}">{escape(v)}</td></tr>'
+                   for k, v in rows)
+    return f'<table class="head">{body}</table>'
+
+
 def _metadata_table(meta: dict[str, str]) -> str:
     rows = "".join(f"<tr><th>{escape(k)}</th><td>{escape(str(v))}</td></tr>"
                    for k, v in sorted(meta.items()))
@@ -217,14 +246,16 @@ def render_html(data: ReportData, *, extra_sections: Sequence[Section] = ()) -> 
                           if meta.get(k))
     inputs = ", ".join(escape(str(meta[k])) for k in ("input_centreline", "input_dem",
                                                        "input_conditions") if k in meta)
+    title = report_title(meta)
     parts = [
         "<!DOCTYPE html>",
         '<html lang="en"><head><meta charset="utf-8">',
         '<meta name="viewport" content="width=device-width, initial-scale=1">',
-        f"<title>Levee crest screening – {escape(data.source)}</title>",
+        f"<title>{escape(title)} – {escape(data.source)}</title>",
         f"<style>{_CSS}</style></head><body>",
-        "<header><h1>Levee crest screening</h1>",
+        f'<header><h1 id="report-title">{escape(title)}</h1>',
         f'<div class="caution" role="note"><strong>Caution.</strong> {escape(CAUTION)}</div>',
+        _header_table(meta, st),
         f'<p class="run">Results file <b>{escape(data.source)}</b> · {run_line}<br>'
         f"Inputs: {inputs} · CRS {escape(str(meta.get('crs', '?')))}</p></header>",
         '<section id="summary"><h2>Summary</h2><div class="grid"><div>',

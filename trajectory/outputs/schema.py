@@ -116,7 +116,10 @@ STATION_FIELDS: tuple[Field, ...] = (
        "1.5 m, no_data beyond 5 m)"),
     _f("characteristic_slope", "float", "n of 1:n",
        "EurOtop (2018) average outer slope, SWL - 1.5 Hm0 to Ru2% or crest, berm excluded; "
-       "used for the freeboard"),
+       "used for the freeboard unless the section gives a design slope"),
+    _f("outer_slope_source", "str", "",
+       "Slope the requirement used: measured (characteristic_slope) | design (the section's "
+       "design_outer_slope; flag design_slope)"),
 )
 
 # --- several surveys (trajectory.epochs): stations and stretches fields, the `epochs` layer
@@ -278,6 +281,39 @@ SLIP_CIRCLE_FIELDS: tuple[Field, ...] = (
                                                            "phreatic_entry_level")),
 )
 
+# --- what changed since the previous survey (trajectory.changes)
+CHANGE_STATION_FIELDS: tuple[Field, ...] = (
+    _f("status_previous", "str", "",
+       "Verdict of the previous survey under today's rules (conditions, parameters, known "
+       "structures) on its terrain (empty: a single survey)"),
+    _f("status_delivered", "str", "",
+       "Status delivered by the latest earlier result given with --compare, as stored there"),
+    _f("margin_previous", "float", "m", "Margin of the previous survey under today's rules"),
+    _f("margin_change", "float", "m", "margin - margin_previous (- worse now)"),
+    _f("change_sigma", "float", "m",
+       "Combined std of margin_change: sqrt(margin_sigma^2 + margin_sigma_previous^2)"),
+    _f("verdict_change", "str", "",
+       "new_deficit | resolved | worsened | improved (margin change beyond change_sigma) | "
+       "unchanged (empty: no previous verdict)"),
+)
+STATION_FIELDS = STATION_FIELDS + CHANGE_STATION_FIELDS
+CHANGE_FIELDS: tuple[Field, ...] = (
+    _f("from_chainage", "float", "m", "Start of the stretch of change"),
+    _f("line_id", "str", "", "Line the stretch belongs to (empty for a single line)"),
+    _f("to_chainage", "float", "m", "End of the stretch of change"),
+    _f("length", "float", "m", "Length of the stretch"),
+    _f("change", "str", "", "new_deficit | resolved | worsened | improved"),
+    _f("stations", "int", "", "Number of stations in the stretch"),
+    _f("status_previous", "str", "", "Previous verdicts in the stretch, ';'-joined"),
+    _f("status", "str", "", "Today's verdicts in the stretch, ';'-joined"),
+    _f("largest_change", "float", "m",
+       "margin_change of the station that changed most in the stretch's direction"),
+    _f("largest_change_chainage", "float", "m", "Chainage of that station"),
+    _f("margin_previous", "float", "m", "Its previous margin"),
+    _f("margin", "float", "m", "Its margin today"),
+    _f("change_sigma", "float", "m", "Its change_sigma"),
+)
+
 CROSS_SECTION_FIELDS: tuple[Field, ...] = (
     _f("chainage", "float", "m", "Chainage of the station"),
     _f("crest_level", "float", "m", "Measured crest level"),
@@ -286,6 +322,16 @@ CROSS_SECTION_FIELDS: tuple[Field, ...] = (
     _f("inner_slope", "float", "n of 1:n", "Inner slope"),
     _f("status", "str", "", "Station status"),
     _f("half_width", "float", "m", "Section length on each side of the centreline"),
+    # --- the station's whole profile, so any section can be opened from the GIS
+    _f("profile_start", "float", "m",
+       "Offset of the first sample of profile_levels (+ towards the water)"),
+    _f("profile_step", "float", "m", "Spacing of the samples of profile_levels"),
+    _f("profile_levels", "str", "mm",
+       "Ground level of every sample across the section in whole millimetres (DEM datum), "
+       "water side last, space-separated (nan: nodata); offset of sample k = profile_start "
+       "+ k x profile_step"),
+    _f("outer_breaks", "str", "m", "Water-side breakline as in the stations layer"),
+    _f("inner_breaks", "str", "m", "Land-side breakline as in the stations layer"),
 )
 
 CREST_LINE_FIELDS: tuple[Field, ...] = (
@@ -429,6 +475,29 @@ LAYERS: dict[str, tuple[str | None, tuple[Field, ...]]] = {
     "structures": (None, STRUCTURE_FIELDS),
     "piping_stretches": ("LineString", PIPING_STRETCH_FIELDS),
     "slip_circles": ("LineString Z", SLIP_CIRCLE_FIELDS),
+    "changes": ("LineString", CHANGE_FIELDS),
+}
+
+#: what each layer holds, one line each (gpkg_contents.description)
+LAYER_DESCRIPTIONS: dict[str, str] = {
+    "stations": "One point per cross-section: measured crest, required level, margin, status "
+                "(screening estimate; review by a qualified engineer)",
+    "cross_sections": "The cross-section of each station with its sampled ground profile",
+    "crest_line": "The measured crest in 3-D, one line per run of readable stations",
+    "stretches": "Consecutive stations of one status merged, with the worst margin",
+    "options": "Reinforcement options per deficit stretch, basis and option (screening "
+               "estimates), drawn offset to the land side so they do not stack",
+    "run_metadata": "The run: software, inputs and checksums, parameters, caution",
+    "epochs": "One point per station and survey: crest level, change, margin",
+    "section_profiles": "Ground profiles of the stations the report draws (long table)",
+    "economics": "van Dantzig (1956) economic optimum per section",
+    "structures": "Known structures and accepted exceptions applied before the verdict",
+    "changes": "Stretches whose verdict changed since the previous survey: new deficits, "
+               "resolved, worsened, improved",
+    "piping_stretches": "Consecutive stations of one piping status (screening of geometry "
+                        "with schematised soil, not a geotechnical assessment)",
+    "slip_circles": "The critical slip circle (Bishop 1955) of each station screened for "
+                    "inner-slope stability, drawn in its section's vertical plane",
 }
 
 # --- several lines in one run: the spatial layers lead with the line's id

@@ -39,12 +39,48 @@ PIPING_COLOURS: dict[str, str] = {
 #: outline and neutral line colour
 INK = "#303030"
 
-#: layer -> (geometry kind, categorised by status?, line or marker size in mm)
-LAYER_LOOK: dict[str, tuple[str, bool, float]] = {
-    "stations": ("point", True, 2.6),
-    "cross_sections": ("line", True, 0.25),
-    "crest_line": ("line", False, 0.5),
-    "stretches": ("line", True, 1.8),
+#: colour of each reinforcement option (our own choice)
+OPTION_COLOURS: dict[str, str] = {"raise": "#A6103C", "outer_berm": "#1B7837",
+                                  "combined": "#7A3E9D"}
+#: colour of each class of verdict change (our own choice; worse in the deficit colour)
+CHANGE_COLOURS: dict[str, str] = {"new_deficit": "#A6103C", "resolved": "#1B7837",
+                                  "worsened": "#E08214", "improved": "#1F78B4"}
+#: categorising field -> its values and colours
+CATEGORIES: dict[str, dict[str, str]] = {
+    "status": {s: STATUS_COLOURS[s] for s in STATUSES},
+    "option": OPTION_COLOURS,
+    "change": CHANGE_COLOURS,
+}
+
+#: layer -> (geometry kind, categorising field or None, line or marker size in mm)
+LAYER_LOOK: dict[str, tuple[str, str | None, float]] = {
+    "stations": ("point", "status", 2.6),
+    "cross_sections": ("line", "status", 0.25),
+    "crest_line": ("line", None, 0.5),
+    "stretches": ("line", "status", 1.8),
+    "options": ("line", "option", 1.2),
+    "epochs": ("point", None, 1.4),
+    "changes": ("line", "change", 2.4),
+    "piping_stretches": ("line", None, 1.8),
+    "slip_circles": ("line", None, 0.4),
+}
+#: layer -> label expression (QGIS expression) and the SLD's label field: chainages
+LABELS: dict[str, tuple[str, str]] = {
+    "stations": ("format_number(\"chainage\", 0)", "chainage"),
+    "cross_sections": ("format_number(\"chainage\", 0)", "chainage"),
+    "crest_line": ("format_number(\"from_chainage\", 0) || '-' || "
+                   "format_number(\"to_chainage\", 0)", "from_chainage"),
+    "stretches": ("format_number(\"from_chainage\", 0) || '-' || "
+                  "format_number(\"to_chainage\", 0) || ' ' || \"status\"", "from_chainage"),
+    "options": ("\"option\" || ' ' || \"basis\" || ' ' || format_number(\"from_chainage\", 0) "
+                "|| '-' || format_number(\"to_chainage\", 0)", "option"),
+    "epochs": ("\"epoch\" || ' ' || format_number(\"chainage\", 0)", "chainage"),
+    "changes": ("\"change\" || ' ' || format_number(\"from_chainage\", 0) || '-' || "
+                "format_number(\"to_chainage\", 0)", "from_chainage"),
+    "piping_stretches": ("\"status\" || ' ' || format_number(\"from_chainage\", 0) || '-' "
+                         "|| format_number(\"to_chainage\", 0)", "from_chainage"),
+    "slip_circles": ("format_number(\"chainage\", 0) || ' F=' || "
+                     "format_number(\"stability_fos\", 2)", "chainage"),
 }
 
 _QML_VERSION = "3.28.0"
@@ -78,15 +114,46 @@ def _qml_symbol(name: str, kind: str, colour: str, size: float) -> str:
             f"</layer></symbol>")
 
 
+def _qml_labels(layer: str, kind: str) -> str:
+    """Simple labelling by the layer's chainage expression (placement: around a point,
+    along a line), with collision avoidance left to the GIS."""
+    expr = LABELS[layer][0]
+    placement = "0" if kind == "point" else "2"
+    return ('<labeling type="simple"><settings calloutType="simple">'
+            f'<text-style fieldName={quoteattr(expr)} isExpression="1" fontSize="7" '
+            f'fontSizeUnit="Point" textColor="{_rgba(INK)}" fontFamily="Sans Serif" '
+            'multilineAlign="0"><text-buffer bufferDraw="1" bufferSize="0.7" '
+            'bufferSizeUnits="MM" bufferColor="255,255,255,255"/></text-style>'
+            f'<placement placement="{placement}" dist="1" distUnits="MM" '
+            'placementFlags="10"/><rendering obstacle="1" displayAll="0" '
+            'scaleVisibility="0"/></settings></labeling>')
+
+
+def _qml_aliases(layer: str) -> str:
+    """Field aliases (name and unit) in the style, where QGIS 3.22 reads them: on its
+    GDAL (checked: 3.6.2) no alias comes from gpkg_data_columns; newer GDAL releases
+    read that table as alternative names (from memory, 3.7 on; not checked here)."""
+    from .describe import field_title
+    from .schema import LAYERS
+
+    fields = LAYERS[layer][1] if layer in LAYERS else ()
+    items = "".join(f'<alias field={quoteattr(f.name)} index="{i}" '
+                    f"name={quoteattr(field_title(f.name, f.unit))}/>"
+                    for i, f in enumerate(fields))
+    return f"<aliases>{items}</aliases>"
+
+
 def qml(layer: str) -> str:
-    """QGIS style document (QML) of ``layer``: categorised by status, or a single symbol."""
-    kind, by_status, size = LAYER_LOOK[layer]
-    if by_status:
-        cats = "".join(f'<category value="{s}" symbol="{i}" label="{s}" render="true"/>'
-                       for i, s in enumerate(STATUSES))
-        syms = "".join(_qml_symbol(str(i), kind, STATUS_COLOURS[s], size)
-                       for i, s in enumerate(STATUSES))
-        renderer = (f'<renderer-v2 type="categorizedSymbol" attr="status" symbollevels="0" '
+    """QGIS style document (QML) of ``layer``: categorised by its field or a single symbol,
+    chainage labels, and the fields' aliases."""
+    kind, attr, size = LAYER_LOOK[layer]
+    if attr:
+        values = CATEGORIES[attr]
+        cats = "".join(f'<category value="{v}" symbol="{i}" label="{v}" render="true"/>'
+                       for i, v in enumerate(values))
+        syms = "".join(_qml_symbol(str(i), kind, c, size)
+                       for i, c in enumerate(values.values()))
+        renderer = (f'<renderer-v2 type="categorizedSymbol" attr="{attr}" symbollevels="0" '
                     f'enableorderby="0" forceraster="0"><categories>{cats}</categories>'
                     f"<symbols>{syms}</symbols></renderer-v2>")
     else:
@@ -94,7 +161,8 @@ def qml(layer: str) -> str:
                     f'forceraster="0"><symbols>{_qml_symbol("0", kind, INK, size)}</symbols>'
                     f"</renderer-v2>")
     return ("<!DOCTYPE qgis PUBLIC 'http://mrcc.com/qgis.dtd' 'SYSTEM'>\n"
-            f'<qgis version="{_QML_VERSION}" styleCategories="Symbology">{renderer}'
+            f'<qgis version="{_QML_VERSION}" styleCategories="AllStyleCategories" '
+            f'labelsEnabled="1">{renderer}{_qml_labels(layer, kind)}{_qml_aliases(layer)}'
             f"<layerGeometryType>{0 if kind == 'point' else 1}</layerGeometryType></qgis>\n")
 
 
@@ -114,15 +182,20 @@ def _sld_symbolizer(kind: str, colour: str, size_mm: float) -> str:
 
 def sld(layer: str) -> str:
     """OGC Styled Layer Descriptor 1.0.0 of ``layer`` (rules by status where categorised)."""
-    kind, by_status, size = LAYER_LOOK[layer]
-    if by_status:
+    kind, attr, size = LAYER_LOOK[layer]
+    if attr:
         rules = "".join(
-            f"<Rule><Name>{s}</Name><Title>{s}</Title>"
-            f"<ogc:Filter><ogc:PropertyIsEqualTo><ogc:PropertyName>status</ogc:PropertyName>"
-            f"<ogc:Literal>{s}</ogc:Literal></ogc:PropertyIsEqualTo></ogc:Filter>"
-            f"{_sld_symbolizer(kind, STATUS_COLOURS[s], size)}</Rule>" for s in STATUSES)
+            f"<Rule><Name>{v}</Name><Title>{v}</Title>"
+            f"<ogc:Filter><ogc:PropertyIsEqualTo><ogc:PropertyName>{attr}</ogc:PropertyName>"
+            f"<ogc:Literal>{v}</ogc:Literal></ogc:PropertyIsEqualTo></ogc:Filter>"
+            f"{_sld_symbolizer(kind, c, size)}</Rule>" for v, c in CATEGORIES[attr].items())
     else:
         rules = f"<Rule><Name>{layer}</Name>{_sld_symbolizer(kind, INK, size)}</Rule>"
+    rules += (f"<Rule><Name>labels</Name><TextSymbolizer><Label><ogc:PropertyName>"
+              f"{LABELS[layer][1]}</ogc:PropertyName></Label><Font>"
+              '<CssParameter name="font-size">9</CssParameter></Font>'
+              f'<Fill><CssParameter name="fill">{INK}</CssParameter></Fill>'
+              "</TextSymbolizer></Rule>")
     return ('<?xml version="1.0" encoding="UTF-8"?>\n'
             '<StyledLayerDescriptor version="1.0.0" xmlns="http://www.opengis.net/sld" '
             'xmlns:ogc="http://www.opengis.net/ogc" xmlns:xlink="http://www.w3.org/1999/xlink" '

@@ -129,7 +129,8 @@ def write_workbook(stations: pd.DataFrame, stretches: pd.DataFrame, metadata: di
                    path: str | Path, *, overwrite: bool = False,
                    options: pd.DataFrame | None = None,
                    economics: pd.DataFrame | None = None,
-                   piping: pd.DataFrame | None = None) -> Path:
+                   piping: pd.DataFrame | None = None,
+                   changes: pd.DataFrame | None = None) -> Path:
     """Write ``stations`` (contract fields), the severity-sorted ``stretches``, the
     ``options`` (options layer's fields; the sheet is left out when None), the
     ``piping`` stretches (left out when None or empty), the ``economics`` (van Dantzig
@@ -159,6 +160,10 @@ def write_workbook(stations: pd.DataFrame, stretches: pd.DataFrame, metadata: di
 
         _sheet(wb, "economics", economics, _units("economics"),
                f"{CAUTION} {ECONOMICS_CAVEAT}", kinds=_kinds("economics"))
+    if changes is not None and not changes.empty:
+        _sheet(wb, "changes", changes, _units("changes"),
+               f"{CAUTION} Verdict changes since the previous survey (today's rules on its "
+               "terrain).", kinds=_kinds("changes"))
     meta = pd.DataFrame({"key": list(metadata), "value": [str(v) for v in metadata.values()]})
     _sheet(wb, "run", meta, {}, CAUTION)
     with atomic_path(path, overwrite=overwrite) as tmp:
@@ -169,7 +174,13 @@ def write_workbook(stations: pd.DataFrame, stretches: pd.DataFrame, metadata: di
 def write_result_workbook(result, path: str | Path, *, overwrite: bool = False) -> Path:
     """The workbook of an in-memory result."""
     from .fill import stretch_table
-    from .geopackage import economics_frame, option_frame, piping_stretch_frame, stretch_frame
+    from .geopackage import (
+        change_frame,
+        economics_frame,
+        option_frame,
+        piping_stretch_frame,
+        stretch_frame,
+    )
     from .table import deficit_frame
 
     st = deficit_frame(result)
@@ -177,4 +188,5 @@ def write_result_workbook(result, path: str | Path, *, overwrite: bool = False) 
     return write_workbook(st, stretch_table(st, stretch_frame(result), options),
                           dict(sorted(result.metadata.items())), path, overwrite=overwrite,
                           options=options, economics=economics_frame(result),
-                          piping=piping_stretch_frame(result))
+                          piping=piping_stretch_frame(result),
+                          changes=change_frame(result))
