@@ -5,11 +5,12 @@ ROOT="$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)"
 cd "$ROOT"
 bash scripts/setup_env.sh test
 VPY="$ROOT/.venv/bin/python"
-if [ ! -f sample_gis/dem.tif ] || [ ! -f sample_gis/standards.csv ] \
-        || [ ! -f sample_gis/dem_2019.tif ] || [ ! -f sample_gis/dem_2021.tif ] \
-        || [ ! -f sample_gis/structures.csv ] \
-        || ! grep -q polder_level sample_gis/standards.csv; then
+# the invented scenario is (re)built when missing or older than its generator
+STAMP=sample_gis/.generated
+if [ ! -f "$STAMP" ] || [ trajectory/synthetic.py -nt "$STAMP" ] \
+        || [ scripts/make_sample_data.py -nt "$STAMP" ]; then
     "$VPY" scripts/make_sample_data.py --out sample_gis
+    touch "$STAMP"
 fi
 mkdir -p results
 "$ROOT/.venv/bin/trajectory" assess \
