@@ -224,14 +224,6 @@ def _assess_chunk(chunk: _Chunk) -> dict[str, np.ndarray]:
         step=float(chunk.offsets[1] - chunk.offsets[0]), crest_tolerance=s.crest_tolerance,
         approach=s.approach, watch_band=s.watch_band, slope_given=design,
         **profile_berm(prof)).columns())
-    # the return period the crest holds, on the section's frequency line (held.py)
-    if chunk.lines is not None and chunk.lines.has_line.any():
-        out.update(station_held(chunk.lines, chunk.conditions, crest_level=prof.crest_level,
-                                crest_sigma=out["margin_sigma"], approach=s.approach,
-                                outer_slope=prof.outer_slope, tan_alpha=tan_c,
-                                **profile_berm(prof)))
-    else:
-        out.update(empty_held(margin.size))
     out.update(simulate(ds, chunk.stations, chunk.side, chunk.offsets, chunk.conditions, s,
                         accuracy=acc, chunk_key=int(chunk.stations.along[0] * 1000)))
     # inner-slope stability: Bishop (1955) circles on the measured inner side (stability.py)
@@ -442,7 +434,9 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
         cols["crest_level"] = np.where(given, match.crest_level, cols["crest_level"])
         cols["margin"] = np.where(given, cols["crest_level"] - cols["required_level"],
                                   cols["margin"])
-        _held_at_given_crest(cols, given, lines, gathered, s.approach)
+    # the return period the crest holds (held.py): once per line, on the crest assessed
+    # (a structure's where it gives one), the solver's requirement calls shared by all
+    cols.update(_held(cols, lines, gathered, s.approach))
     status = classify(cols["margin"], watch_band=s.watch_band)
     if match is not None:
         status[match.effect == "exclude"] = EXCLUDED
@@ -592,26 +586,20 @@ def _wgs84(crs: CRS, x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarr
     return np.asarray(lon, float), np.asarray(lat, float)
 
 
-def _held_at_given_crest(cols: dict[str, np.ndarray], given: np.ndarray, lines: Lines,
-                         cond: StationConditions, approach: str) -> None:
-    """The return periods held where a structure gives the crest level (in place).
+def _held(cols: dict[str, np.ndarray], lines: Lines, cond: StationConditions,
+          approach: str) -> dict[str, np.ndarray]:
+    """What the crest holds on each station's frequency line (held.py), all stations at once.
 
-    The chunk worked them out on the terrain's crest; a wall's top is what holds.
-    The same call as in the chunk, on the given crest, for those stations only.
+    The requirement is the one the status used: its slope tangent (the design slope
+    where a section gives one) and the measured berm.
     """
-    idx = np.flatnonzero(given & lines.has_line)
-    if idx.size == 0:
-        return
-    with np.errstate(divide="ignore"):
-        tan_c = 1.0 / cols["characteristic_slope"][idx]
-    held = station_held(lines.take(idx), cond.take(idx), crest_level=cols["crest_level"][idx],
-                        crest_sigma=cols["margin_sigma"][idx], approach=approach,
-                        outer_slope=cols["outer_slope"][idx], tan_alpha=tan_c,
-                        berm_width=cols["outer_berm_width"][idx],
-                        berm_level=cols["outer_berm_level"][idx])
-    for k, v in held.items():
-        cols[k] = np.array(cols[k], dtype=np.result_type(cols[k], np.asarray(v)))
-        cols[k][idx] = v
+    if not lines.has_line.any():
+        return empty_held(cols["crest_level"].size)
+    return station_held(lines, cond, crest_level=cols["crest_level"],
+                        crest_sigma=cols["margin_sigma"], approach=approach,
+                        outer_slope=cols["outer_slope"], tan_alpha=cols["tan_alpha"],
+                        berm_width=cols["outer_berm_width"],
+                        berm_level=cols["outer_berm_level"])
 
 
 def _structure_columns(table: pd.DataFrame, ground_crest: np.ndarray,
