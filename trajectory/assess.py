@@ -480,8 +480,8 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
                               profiles=profiles, offsets=offsets, entry=s.piping_entry).items():
         table[k] = v
     pipe_runs = piping_stretches(table, start=s.start_chainage, end=end, line_id=pl.line_id)
-    berms = piping_options(table, pipe_runs, extents=hi - lo, thickness=s.piping_berm_thickness,
-                           unit_cost=s.fill_unit_cost)
+    pipe_berms = piping_options(table, pipe_runs, extents=hi - lo,
+                                thickness=s.piping_berm_thickness, unit_cost=s.fill_unit_cost)
     # the economic optimum (van Dantzig 1956) of sections that give damage and discount rate
     economics = section_economics(table, cond.table, extents=hi - lo, unit_cost=s.fill_unit_cost,
                                   line_id=pl.line_id)
@@ -518,7 +518,7 @@ def _run_line(inputs: RunInputs, s: Settings, dem: DemInfo, crs: CRS, pl: _LineP
     res = Result(stations=table, stretches=stretches, line=line, crs=crs, offsets=offsets,
                  profiles=profiles, metadata=meta, epochs=levels, options=options,
                  lines={pl.line_id: line}, economics=economics, structures=known,
-                 piping_stretches=pipe_runs, piping_options=berms, changes=changes)
+                 piping_stretches=pipe_runs, piping_options=pipe_berms, changes=changes)
     return _LineRun(pl.line_id, line, res, len(st))
 
 
