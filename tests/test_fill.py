@@ -7,7 +7,19 @@ import pandas as pd
 import pytest
 from shapely.geometry import Polygon
 
-from trajectory.outputs.fill import section_area_increase, stretch_table
+from trajectory.outputs.fill import stretch_table
+from trajectory.remedies import Geometry, raise_area
+
+
+def _ground(height, crest, m, n, dh=0.0, inner_height=None):
+    """The terrain across a levee as a polygon closed 10 m down: outer plain at level 0,
+    outer slope 1:m, crest ``crest`` wide at ``height + dh``, inner slope 1:n down to the
+    inner plain ``inner_height`` below the original crest (default: the outer's)."""
+    hi = height if inner_height is None else inner_height
+    top, inner = height + dh, height - hi
+    return Polygon([(-60.0, -10.0), (-60.0, 0.0), (-crest / 2 - m * top, 0.0),
+                    (-crest / 2, top), (crest / 2, top), (crest / 2 + n * (top - inner), inner),
+                    (60.0, inner), (60.0, -10.0)])
 
 
 def _trapezoid(height, crest, m, n):
@@ -16,14 +28,19 @@ def _trapezoid(height, crest, m, n):
                     (crest / 2 + n * height, 0)])
 
 
-@pytest.mark.parametrize("h,b,m,n,dh", [(3.0, 4.0, 3.0, 2.5, 0.4), (5.0, 2.0, 4.0, 3.0, 1.2),
-                                        (2.0, 6.0, 2.0, 2.0, 0.0)])
-def test_area_increase_equals_the_difference_of_two_trapezoids(h, b, m, n, dh):
-    # reference: shapely polygon areas of the section before and after the raise
-    ref = _trapezoid(h + dh, b, m, n).area - _trapezoid(h, b, m, n).area
-    got = section_area_increase(np.array(dh), crest_width=np.array(b), height=np.array(h),
-                                outer_slope=np.array(m), inner_slope=np.array(n))
-    assert got == pytest.approx(ref, rel=1e-12, abs=1e-12)
+@pytest.mark.parametrize("h,b,m,n,dh,hi", [(3.0, 4.0, 3.0, 2.5, 0.4, None),
+                                           (5.0, 2.0, 4.0, 3.0, 1.2, None),
+                                           (2.0, 6.0, 2.0, 2.0, 0.0, None),
+                                           (3.0, 4.0, 3.0, 2.0, 0.5, 4.5)])
+def test_raise_fill_equals_the_difference_of_two_sections(h, b, m, n, dh, hi):
+    # reference: shapely polygon areas of the section before and after the raise, toes
+    # at different levels in the last case (the one fill model, trajectory.remedies)
+    ref = _ground(h, b, m, n, dh, hi).area - _ground(h, b, m, n, 0.0, hi).area
+    g = Geometry(crest_level=np.array([h]), crest_width=np.array([b]),
+                 outer_slope=np.array([m]), inner_slope=np.array([n]),
+                 outer_toe_level=np.array([0.0]),
+                 inner_toe_level=np.array([h - (h if hi is None else hi)]))
+    assert raise_area(np.array([dh]), g)[0] == pytest.approx(ref, rel=1e-12, abs=1e-12)
 
 
 def _stations(margins, *, spacing=25.0):

@@ -1,17 +1,13 @@
 """Stretches sorted by severity, with the length needing raising and a fill-volume estimate.
 
-The estimate (documented in the README) treats each station's section as a
-trapezoid of crest width ``B``, height ``H`` above the mean of its two toes and
-side slopes 1:m (outer) and 1:n (inner). Raising the crest by ``dh`` with the
-same crest width and slopes widens the base, and the section grows by
-
-    dA = dh * (B + (m + n) * H) + (m + n) / 2 * dh**2
-
-(the difference of the two trapezoid areas, plane geometry). Per station,
-``dh = max(0, required_level - crest_level)``; the volume is the sum of
-``dA`` times the chainage each station stands for. Unknown geometry at a
-station is taken from the median of the line's readable stations. It is an
-order-of-magnitude estimate for planning, not a design quantity.
+The fill of a raise is the one model of the remedies (:func:`trajectory.remedies.raise_area`:
+crest width and both slopes kept, each slope moved outward by ``n * dh`` above its own
+toe), so a stretch shows the same figure here and in the options. Per station,
+``dh = max(0, required_level - crest_level)``; the volume is the sum of the added area
+times the chainage each station stands for. Unknown geometry at a station is taken from
+the median of the line's readable stations. Where the options hold a whole-stretch raise,
+its raise and fill are the stretch's. An order-of-magnitude estimate for planning, not a
+design quantity.
 """
 
 from __future__ import annotations
@@ -19,6 +15,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from ..remedies import Geometry, raise_area
 from ..status import station_extents
 
 #: columns of the stretch table, with units (after the stretch layer's fields)
@@ -29,17 +26,6 @@ EXTRA_COLUMNS: dict[str, tuple[str, str]] = {
     "fill_volume": ("m3", "Estimated fill of that raise, keeping crest width and slopes"),
     "severity_rank": ("", "1 = the worst margin of the line(s), then in order (no_data last)"),
 }
-
-
-def section_area_increase(dh: np.ndarray, *, crest_width: np.ndarray, height: np.ndarray,
-                          outer_slope: np.ndarray, inner_slope: np.ndarray) -> np.ndarray:
-    """Growth of a trapezoidal section (m2) when its crest is raised by ``dh`` (m).
-
-    Crest width and slopes (n of 1:n) are kept, so the base widens; the
-    result is the difference of the two trapezoid areas (plane geometry).
-    """
-    s = outer_slope + inner_slope
-    return dh * (crest_width + s * height) + 0.5 * s * dh ** 2
 
 
 def _filled(v: np.ndarray) -> np.ndarray:
@@ -54,15 +40,16 @@ def station_fill(stations: pd.DataFrame, *, start: float, end: float) -> pd.Data
     lo, hi = station_extents(c, start, end)
     dh = stations["required_level"].to_numpy(float) - stations["crest_level"].to_numpy(float)
     dh = np.where(np.isfinite(dh), np.maximum(dh, 0.0), 0.0)
-    toes = stations[["outer_toe_level", "inner_toe_level"]].to_numpy(float)
-    known = np.isfinite(toes)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        toe = np.where(known, toes, 0.0).sum(1) / known.sum(1)   # NaN where both unknown
-    height = np.maximum(_filled(stations["crest_level"].to_numpy(float) - toe), 0.0)
-    area = section_area_increase(
-        dh, crest_width=_filled(stations["crest_width"].to_numpy(float)), height=height,
+    crest = stations["crest_level"].to_numpy(float)
+    # heights above each toe, unknown ones from the line's median
+    h_out = _filled(crest - stations["outer_toe_level"].to_numpy(float))
+    h_in = _filled(crest - stations["inner_toe_level"].to_numpy(float))
+    g = Geometry(crest_level=np.zeros_like(dh), crest_width=_filled(
+        stations["crest_width"].to_numpy(float)),
         outer_slope=_filled(stations["outer_slope"].to_numpy(float)),
-        inner_slope=_filled(stations["inner_slope"].to_numpy(float)))
+        inner_slope=_filled(stations["inner_slope"].to_numpy(float)),
+        outer_toe_level=-h_out, inner_toe_level=-h_in)
+    area = raise_area(dh, g)
     return pd.DataFrame({"chainage": c, "dh": dh, "extent": hi - lo, "volume": area * (hi - lo)})
 
 
