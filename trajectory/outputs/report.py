@@ -15,12 +15,10 @@ from __future__ import annotations
 
 import logging
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass, field
 from html import escape
 from pathlib import Path
 from typing import Any
 
-import geopandas as gpd
 import numpy as np
 import pandas as pd
 import pyogrio
@@ -44,6 +42,7 @@ from .atomic import atomic_path
 from .fill import stretch_table
 from .plots import figure_html
 from .profiles import worst_chainages
+from .report_data import ReportData
 from .schema import field_names
 from .style import STATUS_COLOURS
 
@@ -53,18 +52,6 @@ log = logging.getLogger(__name__)
 Section = tuple[str, Figure | str]
 #: rows of the worst-stretches table in the summary
 WORST_ROWS = 8
-
-
-@dataclass(frozen=True)
-class ReportData:
-    """What the report shows, as read from a results GeoPackage."""
-
-    stations: pd.DataFrame        # stations layer, geometry as x and y
-    stretches: gpd.GeoDataFrame   # stretches layer with geometry
-    metadata: dict[str, str]
-    profiles: pd.DataFrame        # section_profiles (may be empty)
-    source: str                   # file name of the GeoPackage
-    layers: dict[str, pd.DataFrame] = field(default_factory=dict)  # any further layers
 
 
 SectionBuilder = Callable[[ReportData], "Section | None"]

@@ -19,7 +19,7 @@ from .plots import figure_html, new_figure
 from .style import CHANGE_COLOURS, INK, STATUS_COLOURS
 
 if TYPE_CHECKING:
-    from .report import ReportData
+    from .report_data import ReportData
 
 TITLE = "What changed since the previous survey"
 #: the classes' colours of the default styles, plus the unchanged and the unjudged

@@ -1,6 +1,6 @@
 """Report section of a multi-survey run: crest level per survey, projected year per stretch.
 
-Built from the results GeoPackage (:class:`~.report.ReportData`): the crest
+Built from the results GeoPackage (:class:`~.report_data.ReportData`): the crest
 levels per survey come from the ``epochs`` layer (one row per station and
 survey), the projected years from the ``stretches`` layer. A single-survey
 run has no such section.
@@ -18,7 +18,7 @@ from .plots import figure_html, new_figure
 from .style import INK, STATUS_COLOURS
 
 if TYPE_CHECKING:
-    from .report import ReportData
+    from .report_data import ReportData
 
 #: line styles of successive surveys, oldest first (told apart in grey-scale print)
 _SURVEY_STYLES = (("#A0A0A0", (0, (1, 1))), ("#808080", (0, (4, 1, 1, 1, 1, 1))),

@@ -1,6 +1,6 @@
 """Report section for piping: the stretches, and a cross-section per worst station.
 
-Built from the results GeoPackage (:class:`~.report.ReportData`): the
+Built from the results GeoPackage (:class:`~.report_data.ReportData`): the
 ``piping_stretches`` layer, the stations' piping fields, the ``piping_berm``
 rows of ``options`` and the stored profiles (``section_profiles`` keeps the
 worst station of the piping stretches drawn here, see
@@ -21,7 +21,7 @@ from .plots import figure_html, new_figure
 from .style import STATUS_COLOURS
 
 if TYPE_CHECKING:
-    from .report import ReportData
+    from .report_data import ReportData
 
 TITLE = "Piping (backward erosion)"
 #: stretches short on piping drawn, worst margin first

@@ -1,6 +1,6 @@
 """Report section for the remedies: options drawn on the governing station's section, volumes.
 
-Built from the results GeoPackage (:class:`~.report.ReportData`): the
+Built from the results GeoPackage (:class:`~.report_data.ReportData`): the
 ``options`` layer, the governing station's fields in ``stations`` and its stored
 ground profile in ``section_profiles`` (which keeps the station that governs
 every whole-stretch design, see :mod:`.profiles`).
@@ -20,7 +20,7 @@ from .plots import figure_html, new_figure
 from .style import STATUS_COLOURS
 
 if TYPE_CHECKING:
-    from .report import ReportData
+    from .report_data import ReportData
 
 TITLE = "Reinforcement options"
 #: deficit (or watch) stretches drawn, worst margin first

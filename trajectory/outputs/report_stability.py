@@ -1,6 +1,6 @@
 """Report section for the inner-slope stability screening (Bishop 1955, trajectory.stability).
 
-Built from the results GeoPackage (:class:`~.report.ReportData`): the stability
+Built from the results GeoPackage (:class:`~.report_data.ReportData`): the stability
 fields of ``stations``, the ``stability_berm`` rows of ``options`` and the
 stored ground profiles of ``section_profiles`` (the worst station of each
 short stretch is stored, :func:`.profiles.worst_stability_chainages`).
@@ -22,7 +22,7 @@ from .profiles import worst_stability_chainages
 from .style import STATUS_COLOURS
 
 if TYPE_CHECKING:
-    from .report import ReportData
+    from .report_data import ReportData
 
 TITLE = "Inner-slope stability"
 #: stations drawn, least factor of safety (relative to the required one) first

@@ -1,6 +1,6 @@
 """Report section on safety standards: the return period each station holds, per stretch.
 
-Built from the results GeoPackage (:class:`~.report.ReportData`): the held
+Built from the results GeoPackage (:class:`~.report_data.ReportData`): the held
 return periods from the ``stations`` layer, per stretch from ``stretches``,
 the van Dantzig (1956) optimum per section from ``economics``. A run without
 frequency lines has no such section.
@@ -20,7 +20,7 @@ from .plots import figure_html, new_figure
 from .style import INK, STATUS_COLOURS
 
 if TYPE_CHECKING:
-    from .report import ReportData
+    from .report_data import ReportData
 
 TITLE = "Return period held against the standard"
 

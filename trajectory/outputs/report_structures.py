@@ -1,7 +1,7 @@
 """Report section: the known structures and accepted exceptions the verdict took into account.
 
 Built from the results GeoPackage's ``structures`` table and the stations'
-``structure_*`` fields (:class:`~.report.ReportData`).
+``structure_*`` fields (:class:`~.report_data.ReportData`).
 """
 
 from __future__ import annotations
@@ -13,7 +13,7 @@ import numpy as np
 import pandas as pd
 
 if TYPE_CHECKING:
-    from .report import ReportData
+    from .report_data import ReportData
 
 TITLE = "Known structures and accepted exceptions"
 

@@ -1,6 +1,6 @@
 """Report section on how sure each verdict is: margin +- 2 sigma figure and stretch table.
 
-Built from the results GeoPackage (:class:`~.report.ReportData`): the
+Built from the results GeoPackage (:class:`~.report_data.ReportData`): the
 stations' ``margin`` and ``margin_sigma``, the stretches' ``confidence``,
 ``margin_sigma``, ``p_short`` and ``marginal_stations``, and the accuracy
 parameters recorded in the run metadata. Marginal stretches are hatched, in
@@ -23,7 +23,7 @@ from .plots import figure_html, new_figure
 from .style import INK
 
 if TYPE_CHECKING:
-    from .report import ReportData
+    from .report_data import ReportData
 
 TITLE = "How sure is each verdict"
 
