@@ -2,12 +2,14 @@
 
 from __future__ import annotations
 
+import re
 from pathlib import Path
 
 from trajectory.conditions import refresh_readme_tables
 from trajectory.outputs.schema import LAYERS, refresh_readme
 
 README = Path(__file__).resolve().parents[1] / "README.md"
+OUTPUTS = README.parent / "docs" / "outputs.md"
 
 # the contract of shared/DESIGN.md: these fields must exist (more may follow)
 REQUIRED = {
@@ -27,13 +29,20 @@ def test_contract_fields_present():
 
 
 def test_readme_field_tables_are_current():
+    """The field tables (README and docs/outputs.md) and the conditions tables (README)
+    are the schema's and the column declarations' own, and every layer is documented."""
     text = README.read_text(encoding="utf-8")
-    assert refresh_readme(text) == text, "run: python -m trajectory.outputs.schema README.md"
-    # the conditions columns too, from their one declaration (trajectory.conditions)
-    assert refresh_readme_tables(text) == text, \
-        "run: python -m trajectory.outputs.schema README.md"
+    docs = OUTPUTS.read_text(encoding="utf-8")
+    fix = "run: python -m trajectory.outputs.schema README.md docs/outputs.md"
+    for t in (text, docs):
+        assert refresh_readme(t) == t, fix
+        assert refresh_readme_tables(t) == t, fix
+        assert "qualified engineer" in t
     assert "<!-- conditions:sections -->" in text and "<!-- conditions:lines -->" in text
-    assert "qualified engineer" in text
+    documented = set(re.findall(r"<!-- fields:(\w+) -->", text + docs))
+    # run_metadata is a key/value table, described in words
+    assert set(LAYERS) - {"run_metadata"} <= documented, sorted(set(LAYERS) - documented)
+    assert "docs/outputs.md" in text
 
 
 def test_written_geopackage_matches_the_contract_exactly(demo_result):

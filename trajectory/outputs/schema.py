@@ -530,12 +530,13 @@ def refresh_readme(text: str) -> str:
     return re.sub(r"<!-- fields:(\w+) -->.*?<!-- /fields -->", table, text, flags=re.S)
 
 
-if __name__ == "__main__":  # python -m trajectory.outputs.schema README.md
+if __name__ == "__main__":  # python -m trajectory.outputs.schema README.md docs/outputs.md
     import sys
     from pathlib import Path
 
     from ..conditions import refresh_readme_tables
 
-    p = Path(sys.argv[1])
-    text = refresh_readme(p.read_text(encoding="utf-8"))
-    p.write_text(refresh_readme_tables(text), encoding="utf-8")
+    for arg in sys.argv[1:]:
+        p = Path(arg)
+        text = refresh_readme(p.read_text(encoding="utf-8"))
+        p.write_text(refresh_readme_tables(text), encoding="utf-8")
