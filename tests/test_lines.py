@@ -7,12 +7,14 @@ its own chainage from 0), its conditions rows shifted to the half's chainage.
 
 from __future__ import annotations
 
+import geopandas as gpd
 import numpy as np
 import pandas as pd
 import pyogrio
 import pytest
 from click.testing import CliRunner
 from conftest import CUT
+from shapely.geometry import LineString
 
 from trajectory.assess import RunInputs, run
 from trajectory.cli import main
@@ -89,3 +91,26 @@ def test_a_line_without_conditions_and_a_missing_id_field_are_refused(two_lines,
     with pytest.raises(InputError, match="no field 'name'"):
         run(RunInputs(str(two_lines["centreline"]), str(two_lines["dem"]),
                       str(two_lines["sections"]), line_id_field="name"))
+
+
+def test_several_lines_are_read_by_the_single_line_rules(tmp_path):
+    """Each line of a multi-line file passes the same checks as a single centreline
+    (sources.line_from_parts): the gap tolerance, and no self-crossing. Constructed
+    geometry: line a has two parts 3 m apart; line b crosses itself at (50, 0)."""
+    from trajectory.lines import read_centrelines
+
+    a = [LineString([(0, 0), (100, 0)]), LineString([(103, 0), (200, 0)])]
+    b = [LineString([(0, 50), (100, 50)])]
+    path = tmp_path / "lines.gpkg"
+    gdf = gpd.GeoDataFrame({"dike": ["a", "a", "b"]}, geometry=a + b, crs="EPSG:32632")
+    pyogrio.write_dataframe(gdf, path, layer="l", driver="GPKG")
+    with pytest.raises(InputError, match=r"line 'a'.*gap"):
+        read_centrelines(path, id_field="dike")
+    lines, _ = read_centrelines(path, id_field="dike", gap_tolerance=5.0)
+    assert [c.line_id for c in lines] == ["a", "b"]
+    assert lines[0].line.length == pytest.approx(200.0)   # 100 + the 3 m gap closed + 97
+    loop = LineString([(0, 0), (100, 0), (100, 10), (50, 10), (50, -10)])
+    gdf = gpd.GeoDataFrame({"dike": ["a", "b"]}, geometry=[b[0], loop], crs="EPSG:32632")
+    pyogrio.write_dataframe(gdf, tmp_path / "loop.gpkg", layer="l", driver="GPKG")
+    with pytest.raises(InputError, match=r"line .b.*crosses itself at \(50\.0, 0\.0\)"):
+        read_centrelines(tmp_path / "loop.gpkg", id_field="dike")

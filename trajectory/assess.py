@@ -293,7 +293,8 @@ def _read_lines(inputs: RunInputs, dem: DemInfo,
                 s: Settings) -> tuple[list[Centreline], CRS]:
     if inputs.line_id_field:
         return read_centrelines(inputs.centreline, id_field=inputs.line_id_field,
-                                layer=inputs.layer, target_crs=dem.crs)
+                                layer=inputs.layer, target_crs=dem.crs,
+                                gap_tolerance=s.gap_tolerance)
     line, crs = read_centreline(inputs.centreline, layer=inputs.layer, target_crs=dem.crs,
                                 gap_tolerance=s.gap_tolerance)
     return [Centreline("", line)], crs

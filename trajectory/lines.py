@@ -15,15 +15,19 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
-import pyogrio
-from pyproj import CRS, Transformer
+from pyproj import CRS
 from shapely.geometry import LineString
-from shapely.ops import transform
 
 from .errors import ConditionsError, InputError, InputFileError
 from .frequency_conditions import section_lines
 from .frequency_table import FrequencyTable
-from .sources import Conditions, _join_lines, _pick_line_layer, read_conditions, validate_conditions
+from .sources import (
+    Conditions,
+    line_from_parts,
+    read_conditions,
+    read_line_layer,
+    validate_conditions,
+)
 from .status import Stretches
 
 log = logging.getLogger(__name__)
@@ -50,42 +54,27 @@ def read_centrelines(
     :func:`trajectory.sources.read_centreline` joins a single line's parts.
     Lines come in the order their id first appears in the file.
     """
-    p = Path(path)
-    if not p.exists():
-        raise InputFileError(f"{p}: centreline file not found")
-    layer = _pick_line_layer(p, layer)
-    try:
-        df = pyogrio.read_dataframe(p, layer=layer)
-    except Exception as exc:  # pyogrio raises several kinds for unreadable data
-        raise InputFileError(f"{p}: cannot read the centreline ({exc})") from exc
+    p, df, crs = read_line_layer(path, layer=layer)
     if id_field not in df.columns:
         fields = ", ".join(c for c in df.columns if c != "geometry") or "none"
         raise InputError(f"{p}: no field {id_field!r} for the line id; fields are {fields}")
-    if df.crs is None:
-        raise InputError(f"{p}: the centreline has no coordinate reference system; "
-                         "assign one (e.g. in a GIS) and run again")
     ids = df[id_field]
     if ids.isna().any():
         rows = ", ".join(str(i + 1) for i in ids.index[ids.isna()][:5])
         raise InputError(f"{p}: feature(s) {rows} have no {id_field}; give every line an id")
     ids = ids.astype(str).str.strip()
-    crs = CRS.from_user_input(df.crs)
-    tr = None
-    if target_crs is not None and not crs.equals(target_crs):
-        tr = Transformer.from_crs(crs, target_crs, always_xy=True)
-        crs = target_crs
     out: list[Centreline] = []
+    work_crs = crs
     for lid in dict.fromkeys(ids):  # first-appearance order
         geoms = [g for g in df.geometry[(ids == lid).to_numpy()]
                  if g is not None and not g.is_empty]
         if not geoms:
             raise InputError(f"{p}: line {lid!r} has no geometry")
-        line = _join_lines(geoms, source=f"{p} (line {lid!r})", tolerance=gap_tolerance)
-        if tr is not None:
-            line = transform(tr.transform, line)
-        if line.length <= 0:
-            raise InputError(f"{p}: line {lid!r} has zero length")
+        line, work_crs = line_from_parts(geoms, crs, target_crs=target_crs,
+                                         source=f"{p} (line {lid!r})",
+                                         gap_tolerance=gap_tolerance)
         out.append(Centreline(lid, line))
+    crs = work_crs
     log.info("%d lines in %s by %s", len(out), p.name, id_field)
     return out, crs
 

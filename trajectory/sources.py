@@ -11,6 +11,7 @@ import logging
 from dataclasses import dataclass
 from pathlib import Path
 
+import geopandas as gpd
 import numpy as np
 import pyogrio
 import rasterio
@@ -35,6 +36,17 @@ def read_centreline(
     Multi-feature or multi-part lines are joined in order; gaps up to
     ``gap_tolerance`` (m) are closed, larger ones refused.
     """
+    p, df, crs = read_line_layer(path, layer=layer)
+    geoms = [g for g in df.geometry if g is not None and not g.is_empty]
+    if not geoms:
+        raise InputError(f"{p}: layer {_pick_line_layer(p, layer)!r} holds no line geometry")
+    return line_from_parts(geoms, crs, target_crs=target_crs, source=str(p),
+                           gap_tolerance=gap_tolerance)
+
+
+def read_line_layer(path: str | Path, *, layer: str | None = None
+                    ) -> tuple[Path, gpd.GeoDataFrame, CRS]:
+    """The centreline file's line layer (checked: a vector file, one line layer, a CRS)."""
     p = check_file(path, role="centreline", option="--centreline")
     if not is_vector(p) and is_raster(p):
         raise InputFileError(f"{p}: is a raster, not a line layer; give the centreline as a "
@@ -47,23 +59,30 @@ def read_centreline(
     if df.crs is None:
         raise InputError(f"{p}: the centreline has no coordinate reference system; "
                          "assign one (e.g. in a GIS) and run again")
-    geoms = [g for g in df.geometry if g is not None and not g.is_empty]
-    if not geoms:
-        raise InputError(f"{p}: layer {layer!r} holds no line geometry")
-    crs = CRS.from_user_input(df.crs)
+    return p, df, CRS.from_user_input(df.crs)
+
+
+def line_from_parts(geoms: list, crs: CRS, *, target_crs: CRS | None, source: str,
+                    gap_tolerance: float) -> tuple[LineString, CRS]:
+    """One levee line from its parts: reprojected, joined, and checked.
+
+    The parts are reprojected first, so gaps are measured in the working CRS's metres;
+    gaps up to ``gap_tolerance`` are closed, larger ones refused; a line that cannot
+    be placed, has no length or crosses itself is refused. The one way every
+    centreline (one or several per file) is made.
+    """
     if target_crs is not None and not crs.equals(target_crs):
-        # reproject the parts first, so gaps are measured in the working CRS's metres
         tr = Transformer.from_crs(crs, target_crs, always_xy=True)
         geoms = [shapely.transform(g, lambda c: np.column_stack(tr.transform(c[:, 0], c[:, 1])))
                  for g in geoms]
         crs = target_crs
-    line = _join_lines(geoms, source=str(p), tolerance=gap_tolerance)
+    line = _join_lines(geoms, source=source, tolerance=gap_tolerance)
     if not np.isfinite(line.length):
-        raise InputError(f"{p}: the centreline cannot be placed in the DEM's CRS "
+        raise InputError(f"{source}: the centreline cannot be placed in the DEM's CRS "
                          f"({crs.name}); check the CRS assigned to the centreline")
     if not line.length > 0:
-        raise InputError(f"{p}: the centreline has zero length; digitise the levee line")
-    check_simple(line, source=str(p))
+        raise InputError(f"{source}: the centreline has zero length; digitise the levee line")
+    check_simple(line, source=source)
     return line, crs
 
 
