@@ -330,6 +330,10 @@ def margin_with_option(cond: StationConditions, g: Geometry, rule: Rule, *,
 CLOSE_TOLERANCE = 1e-4
 
 
+#: berm widths tried per stretch for the combined whole-stretch design (0..widest)
+STRETCH_WIDTHS = 41
+
+
 def _stretch_designs(cond, g, rule, opts, *, target, settle, extents, lb, bounds):
     """One design per option and stretch, sized so every station of it reaches target.
 
@@ -374,10 +378,6 @@ def _stretch_designs(cond, g, rule, opts, *, target, settle, extents, lb, bounds
     designs["combined"] = (np.where(found, dh_sw[rows, best], 0.0),
                            np.where(found, widths[rows, best], 0.0))
     return designs, level
-
-
-#: berm widths tried per stretch for the combined whole-stretch design (0..widest)
-STRETCH_WIDTHS = 41
 
 
 def _segment_argmin(values: np.ndarray, bounds: np.ndarray) -> np.ndarray:

@@ -259,43 +259,34 @@ def option_frame(result) -> pd.DataFrame:
     return data
 
 
-def piping_stretch_frame(result) -> pd.DataFrame:
-    """The piping stretches' attributes (no geometry); empty where the run made none."""
-    cols = field_names("piping_stretches")
-    t = getattr(result, "piping_stretches", None)
+def _runs_table(result, attr: str, layer: str) -> pd.DataFrame:
+    """A table of stretches the run keeps as ``result.<attr>``, in ``layer``'s fields
+    (no geometry); an empty table of those fields where the run made none."""
+    cols = field_names(layer)
+    t = getattr(result, attr, None)
     if t is None or t.empty:
         return pd.DataFrame({c: pd.Series([], dtype=object if f.kind == "str" else float)
-                             for c, f in zip(cols, LAYERS["piping_stretches"][1], strict=True)})
+                             for c, f in zip(cols, LAYERS[layer][1], strict=True)})
     return t[cols].reset_index(drop=True)
 
 
-def piping_stretch_layer(result, *, start: float, reverse: bool) -> gpd.GeoDataFrame:
-    """The piping stretches on their part of the line."""
-    data = piping_stretch_frame(result)
-    cols = field_names("piping_stretches")
-    if data.empty:
-        return gpd.GeoDataFrame({c: data[c] for c in cols}, geometry=[], crs=result.crs)
-    geoms = _pieces_along(result, data["line_id"].to_numpy(object), data["from_chainage"],
-                          data["to_chainage"], start=start, reverse=reverse)
-    return _frame({c: data[c].to_numpy() for c in cols}, "piping_stretches", geoms, result.crs)
-
-
-def change_frame(result) -> pd.DataFrame:
-    """The stretches of verdict change (empty table without a previous survey)."""
-    cols = field_names("changes")
-    t = getattr(result, "changes", None)
-    if t is None or t.empty:
-        return pd.DataFrame({c: pd.Series([], dtype=object if f.kind == "str" else float)
-                             for c, f in zip(cols, LAYERS["changes"][1], strict=True)})
-    return t[cols].reset_index(drop=True)
-
-
-def change_layer(result, *, start: float, reverse: bool) -> gpd.GeoDataFrame:
-    """The stretches of verdict change on the line (changes.py)."""
-    data = change_frame(result)
+def _runs_layer(result, attr: str, layer: str, *, start: float,
+                reverse: bool) -> gpd.GeoDataFrame:
+    """Those stretches on their part of the line."""
+    data = _runs_table(result, attr, layer)
     geoms = _pieces_along(result, data["line_id"].to_numpy(object), data["from_chainage"],
                           data["to_chainage"], start=start, reverse=reverse) if len(data) else []
     return gpd.GeoDataFrame(data, geometry=geoms, crs=result.crs)
+
+
+def piping_stretch_frame(result) -> pd.DataFrame:
+    """The piping stretches' attributes (piping_screen.py)."""
+    return _runs_table(result, "piping_stretches", "piping_stretches")
+
+
+def change_frame(result) -> pd.DataFrame:
+    """The stretches of verdict change (changes.py; empty without a previous survey)."""
+    return _runs_table(result, "changes", "changes")
 
 
 def structure_frame(result) -> pd.DataFrame:
@@ -341,9 +332,10 @@ def write_geopackage(result, path: str | Path, *, overwrite: bool = False,
         "section_profiles": section_profile_table(result),
         "economics": economics_frame(result),
         "structures": structure_frame(result),
-        "piping_stretches": piping_stretch_layer(result, start=start, reverse=reverse),
+        "piping_stretches": _runs_layer(result, "piping_stretches", "piping_stretches",
+                                        start=start, reverse=reverse),
         "slip_circles": slip_circle_layer(result),
-        "changes": change_layer(result, start=start, reverse=reverse),
+        "changes": _runs_layer(result, "changes", "changes", start=start, reverse=reverse),
     }
     assert set(layers) == set(LAYERS)
     slds = sld_paths(path) if styles else {}

@@ -42,7 +42,7 @@ from .atomic import atomic_path
 from .fill import stretch_table
 from .plots import figure_html
 from .profiles import worst_chainages
-from .report_data import ReportData
+from .report_data import ReportData, number_text
 from .schema import field_names
 from .style import STATUS_COLOURS
 
@@ -112,11 +112,7 @@ def summary_figures(stations: pd.DataFrame, stretches: pd.DataFrame) -> dict[str
 
 
 def _num(v: Any, fmt: str) -> str:
-    try:
-        f = float(v)
-    except (TypeError, ValueError):
-        return escape(str(v))
-    return "–" if not np.isfinite(f) else format(f, fmt)
+    return number_text(v, fmt, missing="–", text=True)
 
 
 def _status_chip(s: str) -> str:

@@ -18,6 +18,7 @@ from matplotlib.figure import Figure
 
 from ..piping_screen import CAVEAT, berm_face
 from .plots import figure_html, new_figure
+from .report_data import number_text
 from .style import STATUS_COLOURS
 
 if TYPE_CHECKING:
@@ -88,11 +89,7 @@ def piping_figure(station: pd.Series, profile: pd.DataFrame,
 
 
 def _f(v, fmt: str) -> str:
-    try:
-        x = float(v)
-    except (TypeError, ValueError):
-        return html.escape(str(v))
-    return "–" if not np.isfinite(x) else format(x, fmt)
+    return number_text(v, fmt, missing="–", text=True)
 
 
 def stretch_table(stretches: pd.DataFrame, berms: pd.DataFrame) -> str:

@@ -17,6 +17,7 @@ from matplotlib.figure import Figure
 
 from ..remedies import CAVEAT, COST_NOTE, OPTIONS, Geometry, outline
 from .plots import figure_html, new_figure
+from .report_data import number_text
 from .style import STATUS_COLOURS
 
 if TYPE_CHECKING:
@@ -72,11 +73,7 @@ def options_figure(station: pd.Series, rows: pd.DataFrame,
 
 
 def _f(v, fmt: str) -> str:
-    try:
-        x = float(v)
-    except (TypeError, ValueError):
-        return ""
-    return "" if not np.isfinite(x) else format(x, fmt)
+    return number_text(v, fmt)
 
 
 def options_table(rows: pd.DataFrame) -> str:

@@ -19,6 +19,7 @@ from .. import stability as sb
 from ..stability_berms import OPTION, berm_face, short_runs
 from .plots import figure_html, new_figure
 from .profiles import worst_stability_chainages
+from .report_data import number_text
 from .style import STATUS_COLOURS
 
 if TYPE_CHECKING:
@@ -30,11 +31,7 @@ N_WORST = 3
 
 
 def _f(v, fmt: str) -> str:
-    try:
-        x = float(v)
-    except (TypeError, ValueError):
-        return ""
-    return "–" if not np.isfinite(x) else format(x, fmt)
+    return number_text(v, fmt, missing="–")
 
 
 def _crest(st: pd.Series) -> float:

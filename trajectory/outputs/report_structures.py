@@ -9,8 +9,9 @@ from __future__ import annotations
 import html
 from typing import TYPE_CHECKING
 
-import numpy as np
 import pandas as pd
+
+from .report_data import number_text
 
 if TYPE_CHECKING:
     from .report_data import ReportData
@@ -25,11 +26,7 @@ _EFFECT_TEXT = {
 
 
 def _num(v, fmt: str) -> str:
-    try:
-        x = float(v)
-    except (TypeError, ValueError):
-        return ""
-    return "" if not np.isfinite(x) else format(x, fmt)
+    return number_text(v, fmt)
 
 
 def structure_section(data: ReportData) -> tuple[str, str] | None:

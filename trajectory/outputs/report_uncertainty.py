@@ -20,6 +20,7 @@ from matplotlib.patches import Patch
 from ..errors import TrajectoryError
 from ..uncertainty import CUSTOM, FIRM_SIGMAS, VerticalAccuracy, accuracy_preset
 from .plots import figure_html, new_figure
+from .report_data import number_text
 from .style import INK
 
 if TYPE_CHECKING:
@@ -65,11 +66,7 @@ def _accuracy_text(metadata: dict[str, str]) -> str:
 
 
 def _num(x, digits: int) -> str:
-    try:
-        f = float(x)
-    except (TypeError, ValueError):
-        return ""
-    return "" if not np.isfinite(f) else f"{f:.{digits}f}"
+    return number_text(x, f".{digits}f")
 
 
 def stretch_table_html(stretches: pd.DataFrame) -> str:
