@@ -9,7 +9,7 @@ from shapely.geometry import LineString, MultiLineString
 
 from trajectory.chainage import crossing_sections, make_stations
 from trajectory.errors import InputError, InputFileError
-from trajectory.joins import join_parts
+from trajectory.joins import find_branches, join_parts
 from trajectory.sources import read_centreline
 from trajectory.station_list import read_station_chainages
 
@@ -66,6 +66,22 @@ def test_gaps_returned_by_join_parts_measure_the_distance():
 def test_branching_lines_are_refused(parts):
     with pytest.raises(InputError, match="branches"):
         join_parts(parts, tolerance=1.0)
+
+
+def test_one_finding_per_branch_point():
+    # constructed: a Y at (10, 0) seen from all three ends there, a T at (10, 0) on part 1
+    y = [LineString([(0, 0), (10, 0)]), LineString([(10, 0), (20, 5)]),
+         LineString([(10, 0), (20, -5)])]
+    (b,) = find_branches(y, tolerance=1.0)
+    assert (b.x, b.y, b.on_part) == (10.0, 0.0, None)
+    t = [LineString([(0, 0), (20, 0)]), LineString([(10, 0.5), (10, 10)])]
+    (b,) = find_branches(t, tolerance=1.0)
+    assert (b.x, b.y, b.on_part) == (10.0, 0.5, 0)
+    # ends meeting end to end, or a part closer than the tolerance but not touching: none
+    assert find_branches([LineString([(0, 0), (10, 0)]), LineString([(10, 0), (20, 0)])],
+                         tolerance=1.0) == []
+    assert find_branches([LineString([(0, 0), (20, 0)]), LineString([(10, 3), (10, 10)])],
+                         tolerance=1.0) == []
 
 
 def test_stations_at_listed_chainages(tmp_path):

@@ -12,7 +12,6 @@ from typing import Any
 
 import numpy as np
 import shapely
-from scipy.spatial import cKDTree
 from shapely.geometry import LineString
 
 from .errors import InputError, InputFileError
@@ -60,36 +59,13 @@ def is_vector(path: str | Path) -> bool:
 
 
 # ------------------------------------------------------------------ geometry
-def check_parts(parts: list[LineString], *, source: str, tolerance: float) -> None:
-    """Refuse zero-length parts and branching (a node shared by three or more part ends,
-    or a part ending on another's interior)."""
+def check_parts(parts: list[LineString], *, source: str) -> None:
+    """Refuse zero-length parts (all vertices coincide). Branches are found where the
+    parts are joined (:func:`trajectory.joins.find_branches`)."""
     for k, q in enumerate(parts):
         if q.length <= 0:
             raise InputError(f"{source}: line part {k + 1} has zero length (all its vertices "
                              "coincide); delete it or digitise it again")
-    if len(parts) < 2:
-        return
-    ends = np.array([[q.coords[0][:2], q.coords[-1][:2]] for q in parts]).reshape(-1, 2)
-    owner = np.repeat(np.arange(len(parts)), 2)
-    degree = cKDTree(ends).query_ball_point(ends, tolerance, return_length=True)
-    if (degree >= 3).any():
-        x, y = ends[int(np.argmax(degree >= 3))]
-        raise InputError(f"{source}: the centreline branches at ({x:.1f}, {y:.1f}): three or "
-                         "more parts meet there; keep one continuous levee line (put side "
-                         "branches in another file and assess them separately)")
-    # a part end lying on the middle of another part is a branch too
-    i_pt, i_part = shapely.STRtree(parts).query(shapely.points(ends), predicate="dwithin",
-                                                  distance=tolerance)
-    other = owner[i_pt] != i_part
-    near_end = np.minimum(np.hypot(*(ends[i_pt] - ends[2 * i_part]).T),
-                          np.hypot(*(ends[i_pt] - ends[2 * i_part + 1]).T)) <= tolerance
-    bad = other & ~near_end
-    if bad.any():
-        k = int(np.argmax(bad))
-        x, y = ends[i_pt[k]]
-        raise InputError(f"{source}: the centreline branches at ({x:.1f}, {y:.1f}): a part "
-                         f"ends on the middle of part {i_part[k] + 1}; keep one continuous "
-                         "levee line (assess side branches separately)")
 
 
 def check_simple(line: LineString, *, source: str) -> None:

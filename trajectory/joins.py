@@ -10,6 +10,7 @@ from dataclasses import dataclass
 
 import numpy as np
 import shapely
+from scipy.spatial import cKDTree
 from shapely.geometry import LineString
 
 from .errors import InputError
@@ -25,28 +26,45 @@ class Gap:
     parts: tuple[int, int]  # the two parts (0-based, in file order)
 
 
-def find_branches(parts: list[LineString], *, tolerance: float) -> list[tuple[float, float]]:
-    """Points where the parts branch: three or more part ends meet, or an end meets
-    another part away from that part's ends (a T-junction)."""
+@dataclass(frozen=True)
+class Branch:
+    """A point where the parts branch."""
+
+    x: float
+    y: float
+    on_part: int | None  # 0-based part whose middle an end touches; None: 3+ parts meet
+
+    def text(self) -> str:
+        where = f"({self.x:.1f}, {self.y:.1f})"
+        if self.on_part is None:
+            return f"{where}: three or more parts meet there"
+        return f"{where}: a part ends on the middle of part {self.on_part + 1}"
+
+
+def find_branches(parts: list[LineString], *, tolerance: float) -> list[Branch]:
+    """Points where the parts branch: three or more parts' ends meet (a Y), or an end
+    meets another part away from that part's ends (a T). One finding per location."""
     n = len(parts)
+    if n < 2:
+        return []
     ends = np.array([[q.coords[0][:2], q.coords[-1][:2]] for q in parts]).reshape(-1, 2)
     owner = np.repeat(np.arange(n), 2)
-    pts = shapely.points(ends)
-    found: list[tuple[float, float]] = []
-    for k, p in enumerate(pts):
-        near_ends = np.hypot(*(ends - ends[k]).T) <= tolerance
-        if np.unique(owner[near_ends]).size >= 3:
-            found.append(tuple(ends[k]))
-            continue
-        near = np.flatnonzero(shapely.dwithin(np.asarray(parts, dtype=object), p, tolerance))
-        for j in near:
-            if j != owner[k] and not near_ends[owner == j].any():
-                found.append(tuple(ends[k]))
-                break
-    # one report per location
-    uniq: list[tuple[float, float]] = []
+    found: list[Branch] = []
+    # Y: the ends within the tolerance of each end belong to three or more parts
+    for k, near in enumerate(cKDTree(ends).query_ball_point(ends, tolerance)):
+        if np.unique(owner[near]).size >= 3:
+            found.append(Branch(float(ends[k, 0]), float(ends[k, 1]), None))
+    # T: an end within the tolerance of another part, but of neither of its ends
+    i_pt, i_part = shapely.STRtree(parts).query(shapely.points(ends), predicate="dwithin",
+                                                  distance=tolerance)
+    near_end = np.minimum(np.hypot(*(ends[i_pt] - ends[2 * i_part]).T),
+                          np.hypot(*(ends[i_pt] - ends[2 * i_part + 1]).T)) <= tolerance
+    for k in np.flatnonzero((owner[i_pt] != i_part) & ~near_end):
+        x, y = ends[i_pt[k]]
+        found.append(Branch(float(x), float(y), int(i_part[k])))
+    uniq: list[Branch] = []
     for f in found:
-        if all(np.hypot(f[0] - u[0], f[1] - u[1]) > tolerance for u in uniq):
+        if all(np.hypot(f.x - u.x, f.y - u.y) > tolerance for u in uniq):
             uniq.append(f)
     return uniq
 
@@ -65,9 +83,10 @@ def join_parts(parts: list[LineString], *, tolerance: float) -> tuple[LineString
         return LineString(coords[0]), []
     branches = find_branches([LineString(c) for c in coords], tolerance=tolerance)
     if branches:
-        where = "; ".join(f"({x:.1f}, {y:.1f})" for x, y in branches[:10])
-        raise InputError(f"the centreline branches at {len(branches)} point(s): {where}; "
-                         "give one unbranched line per levee (split it into separate runs)")
+        where = "; ".join(b.text() for b in branches[:10])
+        raise InputError(f"the centreline branches at {where}; keep one continuous levee "
+                         "line (put side branches in another file and assess them "
+                         "separately)")
     chain = [coords[0]]
     head_id, tail_id = 0, 0
     free = set(range(1, len(coords)))

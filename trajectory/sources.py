@@ -118,7 +118,7 @@ def _join_lines(geoms: list, *, source: str, tolerance: float) -> LineString:
     parts = [LineString(np.asarray(q.coords)[:, :2]) for q in parts if not q.is_empty]
     if not parts:
         raise InputError(f"{source}: the line features are empty; digitise the levee line")
-    check_parts(parts, source=source, tolerance=tolerance)
+    check_parts(parts, source=source)
     try:
         line, gaps = join_parts(parts, tolerance=tolerance)
     except InputError as exc:
