@@ -62,7 +62,7 @@ def build(folder: Path, length_m: float) -> dict[str, str]:
     """Write (or reuse) the long scenario of ``length_m`` in ``folder``."""
     from dataclasses import replace
 
-    from trajectory.synthetic import LeveeSpec, make_long_centreline, write_scenario
+    from trajectory.scenario.synthetic import LeveeSpec, make_long_centreline, write_scenario
 
     done = folder / "done.json"
     if done.exists():
@@ -100,10 +100,10 @@ def soil_conditions(paths: dict[str, str]) -> str:
 
 def _sections(paths: dict[str, str]):
     """Stations and sample points of the default run (spacing 25 m, +-50 m, DEM cell)."""
-    from trajectory.chainage import make_stations
+    from trajectory.geometry.chainage import make_stations
+    from trajectory.geometry.sections import section_offsets, section_points
+    from trajectory.inputs.sources import open_dem, read_centreline
     from trajectory.params import Settings
-    from trajectory.sections import section_offsets, section_points
-    from trajectory.sources import open_dem, read_centreline
 
     s = Settings()
     dem = open_dem(paths["dem"])
@@ -126,8 +126,8 @@ def _floor_windows(paths: dict[str, str]) -> tuple[list, int, int]:
     import rasterio
     from rasterio.windows import Window
 
+    from trajectory.geometry.sections import station_cell_ranges, to_pixel
     from trajectory.params import Settings
-    from trajectory.sections import station_cell_ranges, to_pixel
 
     _, st, _, (x, y) = _sections(paths)
     with rasterio.open(paths["dem"]) as ds:
@@ -187,7 +187,7 @@ def measure_blocks(paths: dict[str, str], workers: int) -> dict:
     import rasterio
     from rasterio.windows import Window
 
-    from trajectory.sections import to_pixel
+    from trajectory.geometry.sections import to_pixel
 
     _, st, _, (x, y) = _sections(paths)
     todo: list[tuple[Path, list[Window]]] = []
@@ -274,9 +274,9 @@ def measure_piping(res, conditions: str, *, repeat: int = 5) -> dict:
     ``repeat``; it runs inside every run, here it is timed alone."""
     import numpy as np
 
-    from trajectory.piping_screen import piping_options, piping_stretches, screen_piping
-    from trajectory.sources import read_conditions
-    from trajectory.status import station_extents
+    from trajectory.inner.piping_screen import piping_options, piping_stretches, screen_piping
+    from trajectory.inputs.sources import read_conditions
+    from trajectory.judgement.status import station_extents
 
     table = read_conditions(conditions).table.set_index("section_id")
     st = res.stations.drop(columns=[c for c in ("polder_level", "subsoil_class")

@@ -7,7 +7,7 @@ bash scripts/setup_env.sh test
 VPY="$ROOT/.venv/bin/python"
 # the invented scenario is (re)built when missing or older than its generator
 STAMP=sample_gis/.generated
-if [ ! -f "$STAMP" ] || [ trajectory/synthetic.py -nt "$STAMP" ] \
+if [ ! -f "$STAMP" ] || [ trajectory/scenario/synthetic.py -nt "$STAMP" ] \
         || [ scripts/make_sample_data.py -nt "$STAMP" ]; then
     "$VPY" scripts/make_sample_data.py --out sample_gis
     touch "$STAMP"

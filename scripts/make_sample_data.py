@@ -22,7 +22,7 @@ except ImportError:  # run from a checkout without installing the package
     sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from trajectory.errors import TrajectoryError  # noqa: E402
-from trajectory.synthetic import LeveeSpec, make_centreline, write_scenario  # noqa: E402
+from trajectory.scenario.synthetic import LeveeSpec, make_centreline, write_scenario  # noqa: E402
 
 log = logging.getLogger("make_sample_data")
 
@@ -38,6 +38,7 @@ def main(argv: list[str] | None = None) -> int:
                     help="write the DEMs as tiles of this size (m) with a VRT mosaic")
     args = ap.parse_args(argv)
     logging.basicConfig(level=logging.INFO, format="%(levelname)s %(name)s: %(message)s")
+    logging.getLogger("pyogrio").setLevel(logging.WARNING)   # its per-file record counts
     t0 = time.perf_counter()
     spec = LeveeSpec()
     if args.length != spec.length_m:

@@ -32,7 +32,7 @@ def main(argv: list[str] | None = None) -> int:
     from qgis.core import QgsProject, QgsRasterLayer, QgsVectorLayer
     from qgis.PyQt.QtWidgets import QApplication
 
-    from trajectory.gis_provider.headless import qgis_session
+    from trajectory.frontends.gis_provider.headless import qgis_session
 
     with qgis_session(gui=True):
         from processing.gui.AlgorithmDialog import AlgorithmDialog

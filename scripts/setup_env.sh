@@ -18,4 +18,10 @@ if [ ! -x "$ROOT/.venv/bin/python" ]; then
 fi
 VPY="$ROOT/.venv/bin/python"
 "$VPY" -m pip install --quiet --upgrade pip >/dev/null 2>&1 || true
-"$VPY" -m pip install --quiet -e "$ROOT[$EXTRAS]"
+# pip's own chatter (the build backend's notices) goes to a log, shown only on failure
+LOG="$ROOT/.venv/pip-install.log"
+if ! "$VPY" -m pip install --quiet -e "$ROOT[$EXTRAS]" >"$LOG" 2>&1; then
+    cat "$LOG" >&2
+    echo "setup_env: installing trajectory[$EXTRAS] failed (full log: $LOG)" >&2
+    exit 1
+fi

@@ -53,7 +53,7 @@ PIP_CONSTRAINT="$VENV/build-constraints.txt" PIP_BUILD_CONSTRAINT="$VENV/build-c
     --no-binary "$NATIVE" -e "$ROOT" 2>&1 | quiet
 "$VPY" - <<'PY' || { tail -40 "$LOG" >&2; echo "setup_qgis_env: trajectory is not usable beside qgis" \
          "(pip log: $LOG)" >&2; exit 1; }
-import qgis.core, shapely, rasterio, trajectory.gis_provider
+import qgis.core, shapely, rasterio, trajectory.frontends.gis_provider
 from pyproj import CRS
 CRS.from_user_input("EPSG:32632")  # a pyproj built with the wrong Cython fails here
 # the native packages must use the host's libraries, not bundled copies

@@ -8,7 +8,7 @@ import os
 import pytest
 from hypothesis import settings
 
-from trajectory.synthetic import LeveeSpec, make_centreline, write_scenario
+from trajectory.scenario.synthetic import LeveeSpec, make_centreline, write_scenario
 
 # CI runs the property tests on hypothesis's fixed sequence (reproducible verdicts);
 # local runs keep searching new examples

@@ -145,7 +145,7 @@ def main(argv: list[str]) -> int:
         # load the zip's own engine: trajectory is not imported before this point
         answer = plugin(argv[1])
     else:
-        from trajectory.gis_provider import register
+        from trajectory.frontends.gis_provider import register
 
         register()
         if cmd == "params":

@@ -1,6 +1,6 @@
 """Bad input: each case stops with a message naming the thing to fix (or runs and says so).
 
-The scenario is the invented synthetic levee (trajectory.synthetic), 600 m long;
+The scenario is the invented synthetic levee (trajectory.scenario.synthetic), 600 m long;
 wrong inputs are built from it in code, so each test knows the truth it checks.
 """
 
@@ -21,7 +21,6 @@ from rasterio.crs import CRS as RioCRS
 from shapely.geometry import LineString, MultiLineString, Point
 
 from trajectory.assess import RunInputs, run
-from trajectory.cli import EXIT_INPUT, EXIT_INTERNAL, EXIT_INTERRUPTED, main
 from trajectory.errors import (
     ConditionsError,
     InputError,
@@ -29,9 +28,10 @@ from trajectory.errors import (
     ParameterError,
     TrajectoryWarning,
 )
+from trajectory.frontends.cli import EXIT_INPUT, EXIT_INTERNAL, EXIT_INTERRUPTED, main
+from trajectory.inputs.sources import read_centreline, read_conditions
 from trajectory.params import Settings, load_run_file
-from trajectory.sources import read_centreline, read_conditions
-from trajectory.synthetic import LeveeSpec, make_centreline, write_scenario
+from trajectory.scenario.synthetic import LeveeSpec, make_centreline, write_scenario
 
 CRS = "EPSG:32632"
 

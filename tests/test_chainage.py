@@ -8,7 +8,7 @@ import shapely
 from pyproj import Geod, Transformer
 from shapely.geometry import LineString
 
-from trajectory.chainage import make_stations, station_distances
+from trajectory.geometry.chainage import make_stations, station_distances
 
 
 def _arc(radius=800.0, sweep=1.2, n=200, x0=512000.0, y0=5810000.0):
@@ -84,8 +84,8 @@ def test_fast_interpolation_and_substrings_match_shapely():
     import shapely
     from shapely.ops import substring
 
-    from trajectory.chainage import interpolate_points, line_substrings
-    from trajectory.synthetic import make_long_centreline
+    from trajectory.geometry.chainage import interpolate_points, line_substrings
+    from trajectory.scenario.synthetic import make_long_centreline
 
     line = make_long_centreline(4000.0)
     rng = np.random.default_rng(3)

@@ -1,6 +1,6 @@
 """What changed since the previous survey: verdicts per station and stretches of change.
 
-The truth is constructed: the invented demo terrain (trajectory.synthetic) and the
+The truth is constructed: the invented demo terrain (trajectory.scenario.synthetic) and the
 same terrain with two planted crest drops (a deep one that turns ok stations into
 deficits, a shallow one that only lowers them). Outside the drops the two terrain
 models are the same file content, so nothing may change there. The previous verdict
@@ -17,11 +17,17 @@ import pyogrio
 import pytest
 
 from trajectory.assess import RunInputs, assess, run
-from trajectory.changes import change_class, change_runs
-from trajectory.epochs import Epoch
+from trajectory.judgement.changes import change_class, change_runs
+from trajectory.judgement.epochs import Epoch
 from trajectory.outputs.report import load_report_data, render_html
 from trajectory.outputs.report_changes import changes_section
-from trajectory.synthetic import LeveeSpec, LowStretch, make_centreline, write_dem, write_scenario
+from trajectory.scenario.synthetic import (
+    LeveeSpec,
+    LowStretch,
+    make_centreline,
+    write_dem,
+    write_scenario,
+)
 
 pytestmark = pytest.mark.slow  # two 3 km terrain models, three runs (about 40 s)
 

@@ -12,8 +12,8 @@ import numpy as np
 import pytest
 from test_profile_composite import KW, OFF, composite
 
-from trajectory import hydraulics as hy
-from trajectory.profile import characteristic_slope, read_profiles
+from trajectory.formulas import hydraulics as hy
+from trajectory.terrain.profile import characteristic_slope, read_profiles
 
 
 def _slope(z, *, swl, hm0, **kw):
@@ -98,7 +98,7 @@ def test_dry_toe_above_the_lower_point_is_the_lower_point():
 
 
 def _conditions(n, **kw):
-    from trajectory.requirement import StationConditions
+    from trajectory.requirement.crest_level import StationConditions
 
     base = dict(water_level=3.5, hm0=1.0, tm10=4.0, wave_angle=0.0, q_allow=1.0,
                 sea_level_rise=0.0, settlement=0.0, roughness=1.0, min_freeboard=0.0)
@@ -107,9 +107,9 @@ def _conditions(n, **kw):
 
 
 def test_pipeline_slope_flags_extrapolation_under_water_and_drives_the_freeboard():
-    from trajectory.profile import FLAGS
-    from trajectory.profile_conditions import outer_characteristic_slope
-    from trajectory.requirement import required_level
+    from trajectory.requirement.characteristic_slope import outer_characteristic_slope
+    from trajectory.requirement.crest_level import required_level
+    from trajectory.terrain.profile import FLAGS
 
     base = composite()
     rows = 20

@@ -7,7 +7,7 @@ import dataclasses
 import pyogrio
 from click.testing import CliRunner
 
-from trajectory.cli import EXIT_INPUT, EXIT_OVERWRITE, main
+from trajectory.frontends.cli import EXIT_INPUT, EXIT_OVERWRITE, main
 from trajectory.params import Settings
 
 
@@ -70,7 +70,7 @@ def test_progress_bar_and_log_lines_share_the_terminal(capsys):
 
     from tqdm.contrib.logging import _TqdmLoggingHandler
 
-    from trajectory.cli import _Progress
+    from trajectory.frontends.cli import _Progress
 
     root = logging.getLogger()
     handler = logging.StreamHandler()

@@ -1,4 +1,4 @@
-"""Tests of trajectory.conditions: the section-conditions input.
+"""Tests of trajectory.inputs.conditions: the section-conditions input.
 
 Truth here is constructed by the tests (synthetic tables and polygons whose
 answer is known) or checked against reference libraries (shapely for
@@ -19,9 +19,9 @@ import shapely
 from pyproj import CRS, Transformer
 from shapely.geometry import LineString, box
 
-from trajectory import hydraulics as hy
-from trajectory.conditions import assign_sections, read_conditions
 from trajectory.errors import ConditionsError, InputError
+from trajectory.formulas import hydraulics as hy
+from trajectory.inputs.conditions import assign_sections, read_conditions
 
 HEADER = ("section_id,from_chainage,to_chainage,water_level,sea_level_rise,settlement,"
           "freeboard_method,hm0,tm10,tp,wave_angle,q_allow,roughness,min_freeboard,"
@@ -223,7 +223,7 @@ def test_demo_with_section_polygons_matches_the_table(demo, demo_result, tmp_pat
     # station off a boundary gets the same required level (stations on a shared
     # boundary may go to either neighbour).
     from trajectory.assess import RunInputs, run
-    from trajectory.chainage import make_stations
+    from trajectory.geometry.chainage import make_stations
     from trajectory.params import Settings
 
     result, _ = demo_result
@@ -262,7 +262,7 @@ def test_cli_reads_a_geopackage_layer_with_tp_and_revetment_names(demo, demo_res
     # basalt 0.9, from memory) give the same required levels as the demo table.
     from click.testing import CliRunner
 
-    from trajectory.cli import main
+    from trajectory.frontends.cli import main
 
     result, _ = demo_result
     t = pd.read_csv(demo["sections"])

@@ -1,6 +1,6 @@
 """Common table formats: separators, decimal commas, encodings, typos in a column name.
 
-The invented synthetic levee (trajectory.synthetic, 300 m) assessed with its
+The invented synthetic levee (trajectory.scenario.synthetic, 300 m) assessed with its
 conditions table written in each format; the comma/UTF-8 table is the reference
 every other format must reproduce exactly. Each case checks the exit code,
 the message naming the file and column, and that the inputs are unchanged.
@@ -15,8 +15,8 @@ import pyogrio
 import pytest
 from click.testing import CliRunner
 
-from trajectory.cli import EXIT_INPUT, EXIT_OK, main
-from trajectory.synthetic import LeveeSpec, make_centreline, write_scenario
+from trajectory.frontends.cli import EXIT_INPUT, EXIT_OK, main
+from trajectory.scenario.synthetic import LeveeSpec, make_centreline, write_scenario
 
 
 @pytest.fixture(scope="module")

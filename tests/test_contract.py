@@ -5,7 +5,7 @@ from __future__ import annotations
 import re
 from pathlib import Path
 
-from trajectory.conditions import refresh_readme_tables
+from trajectory.inputs.conditions import refresh_readme_tables
 from trajectory.outputs.schema import LAYERS, refresh_readme
 
 README = Path(__file__).resolve().parents[1] / "README.md"

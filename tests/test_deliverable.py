@@ -2,7 +2,7 @@
 GeoPackage, a section's design slope, and the GIS delivery (styles, descriptions,
 aliases, options side by side).
 
-Truth: the invented demo (trajectory.synthetic, a straight 1:3 outer slope without a
+Truth: the invented demo (trajectory.scenario.synthetic, a straight 1:3 outer slope without a
 berm in section VN-04), a design slope given here, and the GeoPackage encoding
 standard's tables (OGC GeoPackage 1.3: gpkg_contents, gpkg_data_columns).
 """
@@ -22,15 +22,15 @@ import shapely
 from click.testing import CliRunner
 
 from trajectory.assess import RunInputs, run
-from trajectory.cli import main
+from trajectory.frontends.cli import main
+from trajectory.judgement.remedies import OPTIONS
 from trajectory.outputs.describe import field_title
 from trajectory.outputs.geopackage import OPTION_OFFSET_STEP
 from trajectory.outputs.profiles import decode_levels
 from trajectory.outputs.report import load_report_data, render_html
 from trajectory.outputs.schema import LAYERS
 from trajectory.params import Settings, parameter_table
-from trajectory.remedies import OPTIONS
-from trajectory.synthetic import LeveeSpec, indicative_required_level
+from trajectory.scenario.synthetic import LeveeSpec, indicative_required_level
 
 
 def _query(path, sql):
@@ -124,7 +124,7 @@ def test_design_slope_replaces_the_measured_one_and_is_flagged(design_run):
 
 def test_options_are_designed_on_the_same_design_requirement(design_run):
     """One requirement serves status and remedies: the options see tan_alpha = 1/4 too."""
-    from trajectory.remedies import Rule
+    from trajectory.judgement.remedies import Rule
 
     rule = Rule.of_stations(design_run.stations)
     on = (design_run.stations["section_id"] == "VN-04").to_numpy()

@@ -1,4 +1,4 @@
-"""Epoch arithmetic (trajectory.epochs) against reference libraries and constructed truth.
+"""Epoch arithmetic (trajectory.judgement.epochs) against reference libraries and constructed truth.
 
 References: scipy.stats.linregress and numpy.polyfit (least-squares slope, intercept,
 standard error and the unscaled covariance); scipy.stats.t (coverage of a slope's
@@ -15,7 +15,7 @@ import pandas as pd
 import pytest
 from scipy import stats
 
-from trajectory.epochs import (
+from trajectory.judgement.epochs import (
     EpochError,
     assess_epochs,
     check_order,
@@ -27,7 +27,7 @@ from trajectory.epochs import (
     projected_year,
     stretch_figures,
 )
-from trajectory.uncertainty import rate_sigma
+from trajectory.judgement.uncertainty import rate_sigma
 
 YEARS = np.array([2012.0, 2015.5, 2017.0, 2019.0, 2021.25, 2024.0])
 
@@ -232,7 +232,7 @@ def test_station_matching_refuses_incompatible_layouts():
 
 
 def test_summary_line_names_the_earliest_year_ahead():
-    from trajectory.epochs import summary_text
+    from trajectory.judgement.epochs import summary_text
 
     line = summary_text(["2019", "2024"], np.array([1, 0, 1]), np.array([2031.0, 2024.0, 2040.0]),
                         np.array([0.2, -0.1, 0.4]))

@@ -1,6 +1,6 @@
 """Several surveys end to end: the invented scenario's planted lowering comes out.
 
-The truth is the synthetic generator's (trajectory.synthetic): a base lowering of
+The truth is the synthetic generator's (trajectory.scenario.synthetic): a base lowering of
 spec.lowering_rate and a faster stretch (spec.rate_stretches), surveys in
 spec.epochs and spec.survey_year; one extra latest survey with a local drop
 planted here. Mismatched inputs are refused with a message naming the cause.
@@ -17,13 +17,19 @@ import rasterio
 from click.testing import CliRunner
 
 from trajectory.assess import RunInputs, assess, run
-from trajectory.cli import EXIT_INPUT, main
-from trajectory.epochs import Epoch, EpochError
+from trajectory.frontends.cli import EXIT_INPUT, main
+from trajectory.judgement.epochs import Epoch, EpochError
 from trajectory.outputs.report import load_report_data
 from trajectory.outputs.report_epochs import crest_epochs_figure, epoch_section
 from trajectory.outputs.schema import EPOCH_STATION_FIELDS, field_names
 from trajectory.params import Settings
-from trajectory.synthetic import LeveeSpec, LowStretch, make_centreline, write_dem, write_scenario
+from trajectory.scenario.synthetic import (
+    LeveeSpec,
+    LowStretch,
+    make_centreline,
+    write_dem,
+    write_scenario,
+)
 
 pytestmark = pytest.mark.slow  # writes four 3 km terrain models (about 10 s)
 

@@ -20,23 +20,23 @@ from rasterio.transform import from_origin
 from scipy.interpolate import RegularGridInterpolator
 
 from trajectory.assess import RunInputs, assess, run
-from trajectory.chainage import Stations
-from trajectory.execution import (
-    DaskExecutor,
-    ExecutionError,
-    SerialExecutor,
-    _bounded_map,
-    make_executor,
-    resolve_workers,
-)
-from trajectory.params import Settings
-from trajectory.sections import (
+from trajectory.geometry.chainage import Stations
+from trajectory.geometry.sections import (
     sample_profiles,
     section_offsets,
     section_points,
     station_cell_ranges,
     to_pixel,
     window_groups,
+)
+from trajectory.params import Settings
+from trajectory.pipeline.execution import (
+    DaskExecutor,
+    ExecutionError,
+    SerialExecutor,
+    _bounded_map,
+    make_executor,
+    resolve_workers,
 )
 
 
@@ -96,7 +96,7 @@ def test_execution_settings_are_not_recorded_as_results(demo):
 def test_vrt_mosaic_gives_the_same_results_as_one_merged_geotiff(tmp_path):
     from rasterio.merge import merge
 
-    from trajectory.synthetic import (
+    from trajectory.scenario.synthetic import (
         LeveeSpec,
         make_centreline,
         write_centreline,

@@ -18,12 +18,12 @@ import shapely
 from click.testing import CliRunner
 
 from trajectory.assess import RunInputs, assess, run
-from trajectory.cli import EXIT_INCOMPLETE, EXIT_INTERRUPTED, main
 from trajectory.errors import InputError
-from trajectory.faults import FLAG_READ_FAILED, ChunkFailure, Guarded
+from trajectory.frontends.cli import EXIT_INCOMPLETE, EXIT_INTERRUPTED, main
 from trajectory.outputs.atomic import remove_stale_partials
 from trajectory.params import Settings
-from trajectory.synthetic import LeveeSpec, make_centreline, write_scenario
+from trajectory.pipeline.faults import FLAG_READ_FAILED, ChunkFailure, Guarded
+from trajectory.scenario.synthetic import LeveeSpec, make_centreline, write_scenario
 
 
 @pytest.fixture(scope="module")
@@ -107,7 +107,7 @@ def test_corrupt_tile_gives_no_data_stations_and_an_incomplete_run(tiled, tmp_pa
 
 
 def test_all_chunks_failing_is_an_error():
-    from trajectory.chainage import Stations
+    from trajectory.geometry.chainage import Stations
 
     class Boom:
         stations = Stations(*[np.array([0.0, 25.0])] * 6)
@@ -117,7 +117,7 @@ def test_all_chunks_failing_is_an_error():
 
     got = Guarded(fail)(Boom())
     assert isinstance(got, ChunkFailure) and got.describe().startswith("chainage 0.0-25.0 m")
-    from trajectory.faults import fill_failures
+    from trajectory.pipeline.faults import fill_failures
 
     assert Guarded(fail, lambda c, i: c)(Boom()) == got  # every station fails alike
     with pytest.raises(InputError, match="could not be read anywhere along the line.*tile gone"):
@@ -138,7 +138,7 @@ def _partials(folder: Path, stem: str = "r") -> list[Path]:
 
 
 def _start(demo, out: Path) -> subprocess.Popen:
-    cmd = [sys.executable, "-m", "trajectory.cli", "assess", "--centreline",
+    cmd = [sys.executable, "-m", "trajectory.frontends.cli", "assess", "--centreline",
            str(demo["centreline"]), "--dem", str(demo["dem"]), "--conditions",
            str(demo["sections"]), "--out", str(out), "--overwrite", "--quiet",
            "--spacing", "5"]
@@ -240,9 +240,9 @@ def test_staged_outputs_are_renamed_together_or_not_at_all(tmp_path):
 
 
 def test_writers_side_by_side_run_in_another_process_and_raise_its_errors(monkeypatch):
-    from trajectory import execution
     from trajectory.errors import InputError
-    from trajectory.execution import side_by_side
+    from trajectory.pipeline import execution
+    from trajectory.pipeline.execution import side_by_side
 
     def fail() -> None:
         raise InputError("row 7 of sections.csv: hm0 is negative")

@@ -7,8 +7,8 @@ import pandas as pd
 import pytest
 from shapely.geometry import Polygon
 
+from trajectory.judgement.remedies import Geometry, raise_area
 from trajectory.outputs.fill import stretch_table
-from trajectory.remedies import Geometry, raise_area
 
 
 def _ground(height, crest, m, n, dh=0.0, inner_height=None):
@@ -34,7 +34,7 @@ def _trapezoid(height, crest, m, n):
                                            (3.0, 4.0, 3.0, 2.0, 0.5, 4.5)])
 def test_raise_fill_equals_the_difference_of_two_sections(h, b, m, n, dh, hi):
     # reference: shapely polygon areas of the section before and after the raise, toes
-    # at different levels in the last case (the one fill model, trajectory.remedies)
+    # at different levels in the last case (the one fill model, trajectory.judgement.remedies)
     ref = _ground(h, b, m, n, dh, hi).area - _ground(h, b, m, n, 0.0, hi).area
     g = Geometry(crest_level=np.array([h]), crest_width=np.array([b]),
                  outer_slope=np.array([m]), inner_slope=np.array([n]),

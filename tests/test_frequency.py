@@ -14,10 +14,15 @@ import numpy as np
 import pytest
 from scipy import optimize, stats
 
-from trajectory.economics import total_cost, van_dantzig
-from trajectory.frequency import Lines, decimation_level, gumbel_level, no_lines
-from trajectory.held import _conditions_at, solve_held, station_held, stretch_held
-from trajectory.requirement import StationConditions, required_level
+from trajectory.formulas.frequency import Lines, decimation_level, gumbel_level, no_lines
+from trajectory.judgement.economics import total_cost, van_dantzig
+from trajectory.requirement.crest_level import StationConditions, required_level
+from trajectory.requirement.held import (
+    _conditions_at,
+    solve_held,
+    station_held,
+    stretch_held,
+)
 
 
 def _table_lines(t, level, hm0=None, tm10=None, *, standard=1000.0, n=1, extrapolate=False):
@@ -200,8 +205,8 @@ def _write(tmp_path, name, text):
 
 
 def _read(tmp_path, cond_rows, freq=FREQ):
-    from trajectory.frequency_table import read_frequency
-    from trajectory.sources import read_conditions
+    from trajectory.inputs.frequency_table import read_frequency
+    from trajectory.inputs.sources import read_conditions
 
     f = read_frequency(_write(tmp_path, "freq.csv", freq))
     return read_conditions(_write(tmp_path, "cond.csv", COND_HEAD + cond_rows), frequency=f)
@@ -222,7 +227,7 @@ def test_good_tables_give_the_design_level_at_the_standard(tmp_path):
 
 def test_non_increasing_return_periods_are_refused_naming_file_row_column(tmp_path):
     from trajectory.errors import ConditionsError
-    from trajectory.frequency_table import read_frequency
+    from trajectory.inputs.frequency_table import read_frequency
 
     bad = FREQ.replace("A,1000,4.2", "A,100,4.2")
     with pytest.raises(ConditionsError) as e:
@@ -273,7 +278,7 @@ def test_negative_damage(tmp_path):
 def test_cli_reports_a_bad_frequency_table_without_traceback(demo, tmp_path):
     from click.testing import CliRunner
 
-    from trajectory.cli import main
+    from trajectory.frontends.cli import main
 
     bad = _write(tmp_path, "f.csv", demo["frequency"].read_text().replace(
         "VN-01,100,3.9", "VN-01,100,3.1"))

@@ -7,11 +7,11 @@ import numpy as np
 import pytest
 from shapely.geometry import LineString, MultiLineString
 
-from trajectory.chainage import crossing_sections, make_stations
 from trajectory.errors import InputError, InputFileError
-from trajectory.joins import find_branches, join_parts
-from trajectory.sources import read_centreline
-from trajectory.station_list import read_station_chainages
+from trajectory.geometry.chainage import crossing_sections, make_stations
+from trajectory.inputs.joins import find_branches, join_parts
+from trajectory.inputs.sources import read_centreline
+from trajectory.inputs.station_list import read_station_chainages
 
 X0, Y0 = 512000.0, 5810000.0
 

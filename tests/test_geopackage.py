@@ -13,9 +13,9 @@ import sqlite3
 
 import pyogrio
 
+from trajectory.judgement.status import STATUSES
 from trajectory.outputs.schema import LAYERS
 from trajectory.outputs.style import LAYER_LOOK, qml, sld, sld_paths
-from trajectory.status import STATUSES
 
 
 def _query(path, sql):
@@ -73,8 +73,8 @@ def test_default_styles_are_stored_and_written_beside(demo_result):
 def test_metadata_records_crs_of_inputs_and_every_parameter(demo_result):
     import dataclasses
 
-    from trajectory.execution import EXECUTION_FIELDS
     from trajectory.params import Settings
+    from trajectory.pipeline.execution import EXECUTION_FIELDS
 
     _, out = demo_result
     kv = dict(_query(out, "SELECT key, value FROM run_metadata"))

@@ -23,9 +23,9 @@ import pytest
 from click.testing import CliRunner
 
 from trajectory import __version__
-from trajectory.cli import assess as cli_assess
-from trajectory.cli import main
-from trajectory.input_table import INPUTS
+from trajectory.frontends.cli import assess as cli_assess
+from trajectory.frontends.cli import main
+from trajectory.inputs.input_table import INPUTS
 from trajectory.params import Settings, parameter_table
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -40,7 +40,7 @@ def _qgis_python() -> str:
         reason = (f"no QGIS-side interpreter at {py}: install the Debian packages qgis "
                   "python3-qgis qgis-providers, then run scripts/setup_qgis_env.sh")
     else:
-        chk = subprocess.run([py, "-c", "import qgis.core, trajectory.gis_provider"],
+        chk = subprocess.run([py, "-c", "import qgis.core, trajectory.frontends.gis_provider"],
                              capture_output=True, text=True, timeout=120)
         if chk.returncode != 0:
             reason = f"{py} cannot import qgis.core and trajectory: {chk.stderr.strip()[-300:]}"
@@ -100,7 +100,7 @@ def test_parameter_definitions_match_params_table(qgis_python):
             assert p["minimum"] == row["min"]
             assert p["maximum"] == row["max"]
     # the three front ends share one set of run-parameter and input names (the input
-    # table, trajectory.input_table); in the GIS tool a layer name comes with the layer
+    # table, trajectory.inputs.input_table); in the GIS tool a layer name comes with the layer
     # picked, and the latest terrain model's date and earlier surveys are fields of their own
     inputs = {s.name for s in INPUTS}
     gis_inputs = {s.name for s in INPUTS if s.gis} | {"dem_date", "dem_earlier", "config"}
@@ -220,7 +220,7 @@ def test_plugin_zip_builds_and_metadata_parses(tmp_path):
         names = zf.namelist()
         text = zf.read("trajectory_plugin/metadata.txt").decode("utf-8")
     assert "trajectory_plugin/__init__.py" in names
-    assert "trajectory_plugin/engine/trajectory/gis_provider/provider.py" in names
+    assert "trajectory_plugin/engine/trajectory/frontends/gis_provider/provider.py" in names
     assert not any("__pycache__" in n for n in names)
     meta = configparser.ConfigParser()
     meta.read_string(text)
@@ -280,7 +280,7 @@ def test_report_algorithm_writes_the_same_page_as_the_cli(qgis_python, demo_resu
 @pytest.fixture(scope="module")
 def surveys(tmp_path_factory):
     """The demo scenario with its earlier surveys (2019, 2021) beside the latest."""
-    from trajectory.synthetic import LeveeSpec, make_centreline, write_scenario
+    from trajectory.scenario.synthetic import LeveeSpec, make_centreline, write_scenario
 
     spec = LeveeSpec()
     out = tmp_path_factory.mktemp("surveys")

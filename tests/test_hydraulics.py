@@ -1,4 +1,4 @@
-"""Tests of trajectory.hydraulics against published formulas and regulations.
+"""Tests of trajectory.formulas.hydraulics against published formulas and regulations.
 
 Hand values below were worked out from the published EurOtop (2018) equations
 (coefficients and equation numbers from memory), with g = 9.81 m/s²:
@@ -19,8 +19,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from trajectory import hydraulics as hy
 from trajectory.errors import ParameterError, TrajectoryError
+from trajectory.formulas import hydraulics as hy
 
 G = 9.81
 

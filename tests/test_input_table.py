@@ -1,4 +1,5 @@
-"""The input files of a run, declared once (trajectory.input_table), as the front ends use them.
+"""The input files of a run, declared once (trajectory.inputs.input_table), as the front
+ends use them.
 
 Constructed truth: a run given entirely by a run file must give, value by value,
 what the same run given on the command line gives; the command line wins over
@@ -14,9 +15,9 @@ import pyogrio
 import pytest
 from click.testing import CliRunner
 
-from trajectory.cli import EXIT_INPUT, main
 from trajectory.errors import ParameterError
-from trajectory.input_table import INPUTS, merge_inputs, read_run_file_inputs
+from trajectory.frontends.cli import EXIT_INPUT, main
+from trajectory.inputs.input_table import INPUTS, merge_inputs, read_run_file_inputs
 from trajectory.params import load_run_file
 
 

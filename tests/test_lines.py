@@ -17,8 +17,8 @@ from conftest import CUT
 from shapely.geometry import LineString
 
 from trajectory.assess import RunInputs, run
-from trajectory.cli import main
 from trajectory.errors import ConditionsError, InputError
+from trajectory.frontends.cli import main
 from trajectory.outputs.schema import LAYERS
 from trajectory.params import Settings
 
@@ -97,7 +97,7 @@ def test_several_lines_are_read_by_the_single_line_rules(tmp_path):
     """Each line of a multi-line file passes the same checks as a single centreline
     (sources.line_from_parts): the gap tolerance, and no self-crossing. Constructed
     geometry: line a has two parts 3 m apart; line b crosses itself at (50, 0)."""
-    from trajectory.lines import read_centrelines
+    from trajectory.inputs.lines import read_centrelines
 
     a = [LineString([(0, 0), (100, 0)]), LineString([(103, 0), (200, 0)])]
     b = [LineString([(0, 50), (100, 50)])]

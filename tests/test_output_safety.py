@@ -1,7 +1,7 @@
 """Nothing lost: outputs never replace an input or each other, the set switches whole.
 
 Each case builds its inputs in a temp folder from the invented synthetic levee
-(trajectory.synthetic), runs the command line, and checks the exit code, the
+(trajectory.scenario.synthetic), runs the command line, and checks the exit code, the
 one-line message and that no input or earlier output changed (SHA-256 before
 and after). File-system faults (disk full, read-only folder) use a small tmpfs
 where the test may mount one, and are skipped with the reason where it may not.
@@ -22,8 +22,8 @@ from pathlib import Path
 import pytest
 from click.testing import CliRunner
 
-from trajectory.cli import EXIT_INPUT, EXIT_INTERRUPTED, EXIT_OK, EXIT_OVERWRITE, main
-from trajectory.synthetic import LeveeSpec, make_centreline, write_scenario
+from trajectory.frontends.cli import EXIT_INPUT, EXIT_INTERRUPTED, EXIT_OK, EXIT_OVERWRITE, main
+from trajectory.scenario.synthetic import LeveeSpec, make_centreline, write_scenario
 
 
 @pytest.fixture(scope="module")
@@ -224,7 +224,7 @@ def test_a_name_taken_by_another_run_meanwhile_is_not_replaced(inputs, tmp_path,
 
 def test_two_processes_writing_one_new_set_one_wins_one_is_told(scenario, tmp_path):
     out = tmp_path / "r.gpkg"
-    args = [sys.executable, "-m", "trajectory.cli", "assess", "--centreline",
+    args = [sys.executable, "-m", "trajectory.frontends.cli", "assess", "--centreline",
             str(scenario["centreline"]), "--dem", str(scenario["dem"]), "--conditions",
             str(scenario["sections"]), "--out", str(out), "--quiet"]
     procs = [subprocess.Popen(args, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)

@@ -14,9 +14,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from trajectory import piping as pp
-from trajectory.conditions import validate_conditions
-from trajectory.piping_screen import (
+from trajectory.formulas import piping as pp
+from trajectory.inner.piping_screen import (
     MIN_BERM_LENGTH,
     berm_face,
     piping_options,
@@ -25,7 +24,8 @@ from trajectory.piping_screen import (
     waterline_offset,
     with_berm,
 )
-from trajectory.profile import read_profiles
+from trajectory.inputs.conditions import validate_conditions
+from trajectory.terrain.profile import read_profiles
 
 
 # ------------------------------------------------------------- creep rules
@@ -147,7 +147,7 @@ def test_bad_piping_columns_name_row_and_column(cols, expected):
 
 def test_bad_piping_value_in_a_file_names_the_file(tmp_path):
     from trajectory.errors import ConditionsError
-    from trajectory.sources import read_conditions
+    from trajectory.inputs.sources import read_conditions
 
     p = tmp_path / "sections.csv"
     _raw(polder_level=["1", "1"], subsoil_class=["fine_sand", "peat"]).to_csv(p, index=False)
@@ -315,7 +315,7 @@ def test_demo_shows_piping_check_and_berm(demo_result, demo):
 def test_cli_names_file_row_and_column_of_a_bad_piping_value(demo, tmp_path):
     from click.testing import CliRunner
 
-    from trajectory.cli import EXIT_INPUT, main
+    from trajectory.frontends.cli import EXIT_INPUT, main
 
     bad = tmp_path / "sections.csv"
     text = demo["sections"].read_text(encoding="utf-8")

@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from trajectory.profile import FLAGS, fill_gaps, masked_line_fit, read_profiles
+from trajectory.terrain.profile import FLAGS, fill_gaps, masked_line_fit, read_profiles
 
 STEP = 0.5
 OFF = np.arange(-100, 101) * STEP

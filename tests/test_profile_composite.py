@@ -9,7 +9,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from trajectory.profile import FLAGS, read_profiles
+from trajectory.terrain.profile import FLAGS, read_profiles
 
 STEP = 0.5
 OFF = np.arange(-120, 121) * STEP

@@ -1,6 +1,6 @@
 """The demo's planted berm, water and crest objects read back where they were planted.
 
-Truth: the synthetic generator (trajectory.synthetic), recorded in truth.json.
+Truth: the synthetic generator (trajectory.scenario.synthetic), recorded in truth.json.
 """
 
 from __future__ import annotations
@@ -10,7 +10,7 @@ import pytest
 
 from trajectory.assess import RunInputs, run
 from trajectory.params import Settings
-from trajectory.synthetic import LeveeSpec, crest_level
+from trajectory.scenario.synthetic import LeveeSpec, crest_level
 
 
 def _within(st, lo, hi):

@@ -23,9 +23,9 @@ import pytest
 from scipy import ndimage, stats
 from test_profile_composite import composite
 
-from trajectory import profile as pr
-from trajectory.hydraulics import runup_2pct
-from trajectory.profile import ProfileMetrics
+from trajectory.formulas.hydraulics import runup_2pct
+from trajectory.terrain import profile as pr
+from trajectory.terrain.profile import ProfileMetrics
 
 KW = dict(object_width=1.0, crest_search=15.0, crest_tolerance=0.10, max_nodata=0.5)
 
@@ -289,7 +289,7 @@ def _batch(rs: int) -> tuple[np.ndarray, np.ndarray]:
 def test_pipeline_slope_is_the_same_with_and_without_the_kept_matrix():
     from test_characteristic_slope import _conditions
 
-    from trajectory.profile_conditions import outer_characteristic_slope
+    from trajectory.requirement.characteristic_slope import outer_characteristic_slope
 
     z, off = _batch(11)
     m = pr.read_profiles(z, off, **KW)

@@ -9,9 +9,9 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from shapely.geometry import LineString
 
-from trajectory.chainage import make_stations
-from trajectory.profile import read_profiles
-from trajectory.sections import section_points
+from trajectory.geometry.chainage import make_stations
+from trajectory.geometry.sections import section_points
+from trajectory.terrain.profile import read_profiles
 
 STEP = 0.5
 OFF = np.arange(-100, 101) * STEP

@@ -15,7 +15,7 @@ import numpy as np
 import pytest
 from scipy import ndimage
 
-from trajectory.profile import FLAGS, characteristic_slope, read_profiles
+from trajectory.terrain.profile import FLAGS, characteristic_slope, read_profiles
 
 CELL = 0.5
 KW = dict(object_width=1.0, crest_search=15.0, crest_tolerance=0.10, max_nodata=0.5)

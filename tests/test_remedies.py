@@ -8,8 +8,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from shapely.geometry import Polygon
 
-from trajectory import hydraulics as hy
-from trajectory.remedies import (
+from trajectory.formulas import hydraulics as hy
+from trajectory.judgement.remedies import (
     OPTIONS,
     Geometry,
     berm_area,
@@ -18,7 +18,7 @@ from trajectory.remedies import (
     raise_area,
     station_options,
 )
-from trajectory.requirement import StationConditions, required_level
+from trajectory.requirement.crest_level import StationConditions, required_level
 
 
 def _cond(n=1, **kw):

@@ -10,10 +10,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from trajectory.profile import read_profiles
-from trajectory.profile_conditions import outer_characteristic_slope
-from trajectory.remedies import Geometry, outline, station_options
-from trajectory.requirement import StationConditions, profile_berm, required_level
+from trajectory.judgement.remedies import Geometry, outline, station_options
+from trajectory.requirement.characteristic_slope import outer_characteristic_slope
+from trajectory.requirement.crest_level import StationConditions, profile_berm, required_level
+from trajectory.terrain.profile import read_profiles
 
 STEP = 0.25
 OFF = np.arange(-240, 241) * STEP   # +-60 m, + towards the water

@@ -2,7 +2,7 @@
 
 The check is made outside the remedies module: each station's margin is
 recomputed with the option built in by calling the requirement's own function
-(:func:`trajectory.requirement.required_level`) with what the status used, the
+(:func:`trajectory.requirement.crest_level.required_level`) with what the status used, the
 characteristic slope tangent (``tan_alpha``, EurOtop 2018 section 5.3.3) and the
 measured outer berm, widened by the option's berm (EurOtop 2018 Eq. 5.33-5.36).
 Synthetic stretches are built with known geometry whose fitted slope differs
@@ -17,9 +17,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from trajectory.remedies import plan_options
-from trajectory.requirement import StationConditions, required_level
-from trajectory.status import classify, merge_stretches, station_extents
+from trajectory.judgement.remedies import plan_options
+from trajectory.judgement.status import classify, merge_stretches, station_extents
+from trajectory.requirement.crest_level import StationConditions, required_level
 
 TOL = 1e-4  # m: a tenth of a millimetre
 
@@ -76,8 +76,8 @@ def _check_every_closing_option(stations, cond, options, settle, stretches, *, t
 
 # ---------------------------------------------------------------- the demo
 def test_demo_closing_options_close_at_every_station(demo, demo_result):
-    from trajectory.requirement import station_conditions
-    from trajectory.sources import assign_sections, read_conditions
+    from trajectory.inputs.sources import assign_sections, read_conditions
+    from trajectory.requirement.crest_level import station_conditions
 
     result, _ = demo_result
     stations = result.stations

@@ -14,9 +14,9 @@ from matplotlib.figure import Figure
 from PIL import Image
 
 from trajectory import CAUTION
-from trajectory.cli import EXIT_INPUT, EXIT_OVERWRITE, main
+from trajectory.frontends.cli import EXIT_INPUT, EXIT_OVERWRITE, main
+from trajectory.judgement.status import STATUSES
 from trajectory.outputs.report import write_report
-from trajectory.status import STATUSES
 
 VOID = {"meta", "img", "br", "link", "hr", "input", "col", "source", "wbr"}
 
@@ -66,8 +66,8 @@ def report(demo_result, tmp_path_factory):
 
 
 def _option_figures(gpkg) -> int:
+    from trajectory.judgement.remedies import OPTIONS
     from trajectory.outputs.report_remedies import N_WORST
-    from trajectory.remedies import OPTIONS
 
     opt = pyogrio.read_dataframe(gpkg, layer="options")
     return min(N_WORST, opt.loc[opt["option"].isin(OPTIONS), "from_chainage"].nunique())

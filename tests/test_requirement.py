@@ -1,4 +1,4 @@
-"""Tests of trajectory.requirement: the assembly of the required crest level.
+"""Tests of trajectory.requirement.crest_level: the assembly of the required crest level.
 
 Sources named beside each check: EurOtop (2018) equations (numbers from memory,
 see tests/test_hydraulics.py for the hand values), 44 CFR 65.10(b)(1) for the
@@ -16,8 +16,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from trajectory import hydraulics as hy
-from trajectory.requirement import (
+from trajectory.formulas import hydraulics as hy
+from trajectory.requirement.crest_level import (
     H1PCT_OVER_HM0,
     METHODS,
     STATION_COLUMNS,

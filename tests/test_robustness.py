@@ -20,13 +20,13 @@ from shapely.geometry import LineString, MultiLineString
 
 from trajectory.assess import Result, RunInputs, run
 from trajectory.errors import TrajectoryError
-from trajectory.sources import (
+from trajectory.inputs.sources import (
     CONDITION_COLUMNS,
     OPTIONAL_COLUMNS,
     check_conditions_cover,
     read_conditions,
 )
-from trajectory.synthetic import LeveeSpec, make_centreline, write_scenario
+from trajectory.scenario.synthetic import LeveeSpec, make_centreline, write_scenario
 
 LENGTH = 300.0
 COLUMNS = list(CONDITION_COLUMNS) + list(OPTIONAL_COLUMNS)

@@ -1,7 +1,7 @@
 """Nothing silent: vertical units read and converted, runs that assess nothing say why.
 
 Each case builds its terrain model in a temp folder from the invented synthetic
-levee (trajectory.synthetic, 300 m), runs the command line and checks the exit
+levee (trajectory.scenario.synthetic, 300 m), runs the command line and checks the exit
 code, the one-line message and that the inputs are unchanged (SHA-256).
 Unit factors: international foot 0.3048 m exactly, US survey foot 1200/3937 m
 (NIST SP 811; EPSG units 9002 and 9003, as pyproj reports them).
@@ -22,8 +22,8 @@ from click.testing import CliRunner
 from pyproj import CRS
 from rasterio.enums import Resampling
 
-from trajectory.cli import EXIT_INCOMPLETE, EXIT_INPUT, EXIT_OK, main
-from trajectory.synthetic import LeveeSpec, make_centreline, write_scenario
+from trajectory.frontends.cli import EXIT_INCOMPLETE, EXIT_INPUT, EXIT_OK, main
+from trajectory.scenario.synthetic import LeveeSpec, make_centreline, write_scenario
 
 FOOT = 0.3048
 US_FOOT = 1200.0 / 3937.0

@@ -7,8 +7,8 @@ import rasterio
 from rasterio.transform import from_origin
 from scipy.interpolate import RegularGridInterpolator
 
-from trajectory.chainage import Stations
-from trajectory.sections import bilinear, sample_profiles, section_offsets
+from trajectory.geometry.chainage import Stations
+from trajectory.geometry.sections import bilinear, sample_profiles, section_offsets
 
 
 def test_bilinear_matches_regular_grid_interpolator():

@@ -1,4 +1,4 @@
-"""Inner-slope stability (trajectory.stability): Bishop (1955) against outside references.
+"""Inner-slope stability (trajectory.inner.stability): Bishop (1955) against outside references.
 
 References: the general-purpose slope-stability library pycss-lem 0.1.0 (PyPI; its
 Bishop simplified routine on the same circle and ground); Taylor's (1937) stability
@@ -15,9 +15,9 @@ import pandas as pd
 import pytest
 import shapely
 
-from trajectory import stability as sb
-from trajectory.conditions import validate_conditions
-from trajectory.stability_berms import berm_face, plan_berms
+from trajectory.inner import stability as sb
+from trajectory.inner.stability_berms import berm_face, plan_berms
+from trajectory.inputs.conditions import validate_conditions
 
 
 def _soil(gamma, gamma_sat, c, phi, n=1) -> sb.Soil:
@@ -309,7 +309,7 @@ def test_demo_report_has_the_stability_section(demo_result, tmp_path):
 
 def test_stretch_design_is_the_least_fill_berm_passing_at_every_station():
     """The staged design equals trying every berm at every station (synthetic truth)."""
-    from trajectory.stability_berms import _evaluate, design
+    from trajectory.inner.stability_berms import _evaluate, design
 
     profiles = [levee(n_in, height=6.0, crest=4.0, still_water=5.0) for n_in in
                 (1.5, 2.2, 1.7, 1.9, 1.6)]
@@ -338,8 +338,8 @@ def test_stretch_design_is_the_least_fill_berm_passing_at_every_station():
 
 def test_bad_soil_in_a_csv_names_file_row_and_column_at_once(tmp_path):
     """Every bad stability cell is reported at once, with the file, the line and the column."""
-    from trajectory.conditions import read_conditions
     from trajectory.errors import ConditionsError
+    from trajectory.inputs.conditions import read_conditions
 
     p = tmp_path / "sections.csv"
     p.write_text(

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from trajectory.status import classify, merge_stretches
+from trajectory.judgement.status import classify, merge_stretches
 
 
 def test_classify_bands():

@@ -14,10 +14,10 @@ import shapely
 from click.testing import CliRunner
 from shapely.geometry import box
 
-from trajectory.cli import EXIT_INPUT, main
 from trajectory.errors import InputError
-from trajectory.status import absorb_short_runs
-from trajectory.structures import Structures, match_structures, validate_structures
+from trajectory.frontends.cli import EXIT_INPUT, main
+from trajectory.judgement.status import absorb_short_runs
+from trajectory.judgement.structures import Structures, match_structures, validate_structures
 
 
 def _structures(rows, polygons=None):
@@ -128,7 +128,7 @@ def test_demo_structures_change_the_verdict_as_declared(demo, demo_result, with_
             assert (at["structure_note"] == r.note).all()
     # no crest remedy over an excluded or given-crest station, no piping berm over an
     # excluded one (a crest wall does not lengthen the seepage path); the table is kept
-    from trajectory.remedies import OPTIONS
+    from trajectory.judgement.remedies import OPTIONS
 
     opt = pyogrio.read_dataframe(out, layer="options")
     crest = opt["option"].isin(OPTIONS)

@@ -13,8 +13,8 @@ import numpy as np
 import pytest
 from colorspacious import cspace_convert, deltaE
 
+from trajectory.judgement.status import STATUSES
 from trajectory.outputs.style import CATEGORIES, LAYER_LOOK, STATUS_COLOURS, qml, sld
-from trajectory.status import STATUSES
 
 
 def _rgb(h: str) -> np.ndarray:

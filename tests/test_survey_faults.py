@@ -1,6 +1,6 @@
 """A failing tile is contained: a mosaic's missing tile, earlier surveys like the latest.
 
-The invented synthetic levee (trajectory.synthetic, 300 m) with its DEM as a
+The invented synthetic levee (trajectory.scenario.synthetic, 300 m) with its DEM as a
 VRT mosaic of 100 m tiles; a tile is removed or cut short in a copy. GDAL
 itself is the reference for "cannot be read" (opening the cut tile fails).
 Each case checks the exit code, the one-line message naming the file, and
@@ -18,9 +18,9 @@ import pytest
 import rasterio
 from click.testing import CliRunner
 
-from trajectory.cli import EXIT_INCOMPLETE, EXIT_INPUT, EXIT_OK, main
-from trajectory.faults import FLAG_READ_FAILED
-from trajectory.synthetic import LeveeSpec, make_centreline, write_scenario
+from trajectory.frontends.cli import EXIT_INCOMPLETE, EXIT_INPUT, EXIT_OK, main
+from trajectory.pipeline.faults import FLAG_READ_FAILED
+from trajectory.scenario.synthetic import LeveeSpec, make_centreline, write_scenario
 
 
 @pytest.fixture(scope="module")

@@ -1,4 +1,4 @@
-"""Tests of the invented demo scenario generator (trajectory.synthetic).
+"""Tests of the invented demo scenario generator (trajectory.scenario.synthetic).
 
 The truth here is synthetic geometry the generator constructs; every reading
 goes through general-purpose references: GDAL through rasterio for the
@@ -23,7 +23,7 @@ from pyproj import CRS
 from rasterio.windows import from_bounds
 
 from trajectory.errors import FileOverwriteError, ParameterError
-from trajectory.synthetic import (
+from trajectory.scenario.synthetic import (
     NODATA,
     SECTION_COLUMNS,
     LeveeSpec,
@@ -256,7 +256,7 @@ def test_indicative_freeboard_meets_q_allow() -> None:
 def test_demo_sections_separate_ok_from_deficit() -> None:
     # the 3 km demo: the nominal crest clears every indicative required level by
     # >= 0.10 m; each low stretch falls clearly short of its section's level
-    from trajectory.synthetic import indicative_required_level
+    from trajectory.scenario.synthetic import indicative_required_level
 
     spec = LeveeSpec()
     req = {s.section_id: indicative_required_level(s, cot_alpha=spec.outer_slope)

@@ -1,4 +1,4 @@
-"""Survey accuracy carried through to the margin (trajectory.uncertainty).
+"""Survey accuracy carried through to the margin (trajectory.judgement.uncertainty).
 
 References: Monte Carlo over synthetic levees whose truth the tests build;
 scipy.stats.norm (reference library); numpy.polyfit's covariance (reference
@@ -14,11 +14,8 @@ import pytest
 from scipy import stats
 
 from trajectory.errors import ParameterError
-from trajectory.params import Settings
-from trajectory.profile import read_profiles
-from trajectory.requirement import StationConditions, required_level
-from trajectory.sections import bilinear
-from trajectory.uncertainty import (
+from trajectory.geometry.sections import bilinear
+from trajectory.judgement.uncertainty import (
     VerticalAccuracy,
     accuracy_from_settings,
     accuracy_preset,
@@ -32,6 +29,9 @@ from trajectory.uncertainty import (
     slope_sigma,
     station_uncertainty,
 )
+from trajectory.params import Settings
+from trajectory.requirement.crest_level import StationConditions, required_level
+from trajectory.terrain.profile import read_profiles
 
 CELL = 0.5
 KW = dict(object_width=1.0, crest_search=15.0, crest_tolerance=0.10, max_nodata=0.5)
@@ -318,9 +318,9 @@ def test_simulate_reports_empirical_sigmas(demo):
 def _small_stretches():
     import pandas as pd
 
-    from trajectory.status import classify, merge_stretches
-    from trajectory.uncertainty import confidence as conf
-    from trajectory.uncertainty import stretch_uncertainty
+    from trajectory.judgement.status import classify, merge_stretches
+    from trajectory.judgement.uncertainty import confidence as conf
+    from trajectory.judgement.uncertainty import stretch_uncertainty
 
     ch = np.arange(7) * 25.0
     margin = np.array([0.4, 0.4, -0.03, -0.02, 0.4, -0.6, 0.5])

@@ -1,6 +1,10 @@
 """trajectory: batch screening of levee crest levels from a centreline and a terrain model.
 
 A screening tool: results must be reviewed by a qualified engineer under local codes.
+
+The run is :mod:`trajectory.assess`; each subpackage is one stage, in pipeline order:
+inputs, geometry, terrain, formulas, requirement, judgement, inner, pipeline, outputs,
+frontends (and scenario, the invented demo data). See the README, "Where the code is".
 """
 
 from __future__ import annotations

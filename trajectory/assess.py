@@ -23,24 +23,73 @@ import rasterio
 from pyproj import CRS
 from shapely.geometry import LineString, MultiLineString
 
-from . import CAUTION, __version__, diagnosis, stability, uncertainty
-from .chainage import Stations, crossing_sections, make_stations
-from .changes import change_class, change_runs, change_table, combined_sigma, previous_status
+from . import CAUTION, __version__
 from .checks import check_chunk_memory, sections_off_the_line
-from .conditions import station_soil
-from .demread import DemReading, reading_rules, with_rules
-from .economics import section_economics
-from .epoch_sources import open_earlier_dem, verdict_from_result
-from .epochs import Epoch, EpochLevels, assess_epochs, check_order, projected_year
 from .errors import InputError, ParameterError
-from .execution import (
+from .formulas.frequency import Lines, no_lines
+from .geometry.chainage import Stations, crossing_sections, make_stations
+from .geometry.sections import sample_profiles, section_offsets
+from .inner import stability
+from .inner.piping_screen import piping_options, piping_stretches, screen_piping
+from .inner.stability import Soil
+from .inner.stability_berms import plan_berms
+from .inputs.conditions import station_soil
+from .inputs.epoch_sources import open_earlier_dem, verdict_from_result
+from .inputs.frequency_table import read_frequency
+from .inputs.lines import Centreline, read_centrelines, read_line_conditions, stack_stretches
+from .inputs.sources import (
+    Conditions,
+    DemInfo,
+    assign_sections,
+    file_checksum,
+    line_bounds_overlap,
+    open_dem,
+    read_centreline,
+    read_conditions,
+)
+from .inputs.station_list import read_station_chainages
+from .judgement import uncertainty
+from .judgement.changes import (
+    change_class,
+    change_runs,
+    change_table,
+    combined_sigma,
+    previous_status,
+)
+from .judgement.economics import section_economics
+from .judgement.epochs import Epoch, EpochLevels, assess_epochs, check_order, projected_year
+from .judgement.remedies import plan_options
+from .judgement.status import (
+    EXCLUDED,
+    STATUSES,
+    Stretches,
+    classify,
+    merge_stretches,
+    station_extents,
+)
+from .judgement.structures import (
+    StructureMatch,
+    Structures,
+    match_structures,
+    read_structures,
+    structure_table,
+)
+from .judgement.uncertainty import (
+    accuracy_from_settings,
+    simulate,
+    simulation_summary,
+    station_uncertainty,
+)
+from .params import Settings
+from .pipeline import diagnosis
+from .pipeline.execution import (
     EXECUTION_FIELDS,
     geopackage_write_options,
     make_executor,
     run_time,
     side_by_side,
 )
-from .faults import (
+from .pipeline.faults import (
     FLAG_OFF_DEM,
     FLAG_READ_FAILED,
     READ_ERROR,
@@ -56,16 +105,8 @@ from .faults import (
     refuse_missing_tiles,
     report_off_dem,
 )
-from .frequency import Lines, no_lines
-from .frequency_table import read_frequency
-from .held import HELD_COLUMNS, empty_held, station_held
-from .lines import Centreline, read_centrelines, read_line_conditions, stack_stretches
-from .params import Settings
-from .piping_screen import piping_options, piping_stretches, screen_piping
-from .profile import FLAGS, ProfileMetrics, breaks_text, flag_text, read_profiles
-from .profile_conditions import outer_characteristic_slope
-from .remedies import plan_options
-from .requirement import (
+from .requirement.characteristic_slope import outer_characteristic_slope
+from .requirement.crest_level import (
     STATION_COLUMNS,
     StationConditions,
     profile_berm,
@@ -73,29 +114,9 @@ from .requirement import (
     requirement_slope,
     station_conditions,
 )
-from .sections import sample_profiles, section_offsets
-from .sources import (
-    Conditions,
-    DemInfo,
-    assign_sections,
-    file_checksum,
-    line_bounds_overlap,
-    open_dem,
-    read_centreline,
-    read_conditions,
-)
-from .stability import Soil
-from .stability_berms import plan_berms
-from .station_list import read_station_chainages
-from .status import EXCLUDED, STATUSES, Stretches, classify, merge_stretches, station_extents
-from .structures import (
-    StructureMatch,
-    Structures,
-    match_structures,
-    read_structures,
-    structure_table,
-)
-from .uncertainty import accuracy_from_settings, simulate, simulation_summary, station_uncertainty
+from .requirement.held import HELD_COLUMNS, empty_held, station_held
+from .terrain.demread import DemReading, reading_rules, with_rules
+from .terrain.profile import FLAGS, ProfileMetrics, breaks_text, flag_text, read_profiles
 
 log = logging.getLogger(__name__)
 

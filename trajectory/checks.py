@@ -61,7 +61,7 @@ def is_vector(path: str | Path) -> bool:
 # ------------------------------------------------------------------ geometry
 def check_parts(parts: list[LineString], *, source: str) -> None:
     """Refuse zero-length parts (all vertices coincide). Branches are found where the
-    parts are joined (:func:`trajectory.joins.find_branches`)."""
+    parts are joined (:func:`trajectory.inputs.joins.find_branches`)."""
     for k, q in enumerate(parts):
         if q.length <= 0:
             raise InputError(f"{source}: line part {k + 1} has zero length (all its vertices "

@@ -128,7 +128,7 @@ class Settings:
     fill_unit_cost: float = _p(0.0, "Cost per m3 of fill (currency-neutral) for an "
                                "order-of-magnitude cost; 0 = no cost figures.",
                                unit="per m3", min=0.0, max=1e6, group="remedies")
-    # --- piping screening (sections with a polder_level; trajectory.piping_screen)
+    # --- piping screening (sections with a polder_level; trajectory.inner.piping_screen)
     piping_entry: str = _p("outer_toe", "Entry point of the seepage path: the outer toe, or the "
                            "design waterline (where still water + sea-level rise meets the "
                            "outer ground); the outer toe where the waterline is not found.",
@@ -137,12 +137,12 @@ class Settings:
                                       "side (its fill volume is thickness x length per metre); "
                                       "at least 0.5 m, so the profile reading sees it.",
                                       unit="m", min=0.5, max=5.0, group="remedies")
-    # --- inner-slope stability (trajectory.stability; sections with soil columns only)
+    # --- inner-slope stability (trajectory.inner.stability; sections with soil columns only)
     stability_phreatic: str = _p("line", "Phreatic line for the inner-slope stability screening: "
                                  "'line' (still water on the outer slope straight to the inner "
                                  "toe) or 'saturated' (at the ground surface: a fully saturated "
                                  "body).", choices=("line", "saturated"), group="stability")
-    # --- uncertainty: the terrain model's vertical accuracy (trajectory.uncertainty)
+    # --- uncertainty: the terrain model's vertical accuracy (trajectory.judgement.uncertainty)
     vertical_accuracy: str = _p("asprs-10cm", "Vertical accuracy of the terrain model: an ASPRS "
                                 "(2014) vertical accuracy class (RMSEz, split half systematic) "
                                 "or 'custom' for --sigma-systematic / --sigma-random.",
@@ -220,7 +220,7 @@ def load_run_file(path: str | Path) -> dict[str, Any]:
         raise ParameterError(f"{p}: run file not found") from exc
     except tomllib.TOMLDecodeError as exc:
         raise ParameterError(f"{p}: not valid TOML ({exc})") from exc
-    data.pop("inputs", None)  # the input files of a run file (trajectory.input_table)
+    data.pop("inputs", None)  # the input files of a run file (trajectory.inputs.input_table)
     values = dict(data.get("parameters", data))
     # a file named in a run file is found from the run file's folder
     paths = {f.name for f in dataclasses.fields(Settings) if f.metadata["path"]}

@@ -18,7 +18,7 @@ if _ENGINE.is_dir() and str(_ENGINE) not in sys.path:
 def classFactory(iface):  # noqa: N802 (name fixed by the host)
     """Return the plugin object (the host's required entry point)."""
     try:
-        from trajectory.gis_provider.plugin import TrajectoryPlugin
+        from trajectory.frontends.gis_provider.plugin import TrajectoryPlugin
     except ImportError as exc:
         raise ImportError(
             f"trajectory plugin: a dependency is missing from the host's Python ({exc}); "

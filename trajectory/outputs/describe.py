@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import sqlite3
 
-from ..status import STATUSES
+from ..judgement.status import STATUSES
 from .schema import LAYER_DESCRIPTIONS, LAYERS
 
 SCHEMA_EXTENSION = "gpkg_schema"

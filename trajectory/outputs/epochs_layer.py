@@ -6,7 +6,7 @@ import geopandas as gpd
 import numpy as np
 import shapely
 
-from ..epochs import EpochLevels, stretch_figures
+from ..judgement.epochs import EpochLevels, stretch_figures
 from .schema import field_names
 
 

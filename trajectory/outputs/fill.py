@@ -1,6 +1,7 @@
 """Stretches sorted by severity, with the length needing raising and a fill-volume estimate.
 
-The fill of a raise is the one model of the remedies (:func:`trajectory.remedies.raise_area`:
+The fill of a raise is the one model of the remedies
+(:func:`trajectory.judgement.remedies.raise_area`:
 crest width and both slopes kept, each slope moved outward by ``n * dh`` above its own
 toe), so a stretch shows the same figure here and in the options. Per station,
 ``dh = max(0, required_level - crest_level)``; the volume is the sum of the added area
@@ -15,8 +16,8 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from ..remedies import Geometry, raise_area
-from ..status import station_extents
+from ..judgement.remedies import Geometry, raise_area
+from ..judgement.status import station_extents
 
 #: columns of the stretch table, with units (after the stretch layer's fields)
 EXTRA_COLUMNS: dict[str, tuple[str, str]] = {

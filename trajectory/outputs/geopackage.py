@@ -12,10 +12,10 @@ import pandas as pd
 import pyogrio
 import shapely
 
-from ..chainage import line_substrings
-from ..held import stretch_held
-from ..stability import arc_points
-from ..uncertainty import stretch_uncertainty
+from ..geometry.chainage import line_substrings
+from ..inner.stability import arc_points
+from ..judgement.uncertainty import stretch_uncertainty
+from ..requirement.held import stretch_held
 from .atomic import atomic_path, refuse_overwrite
 from .describe import write_data_columns
 from .epochs_layer import epoch_layer, epoch_stretch_columns
@@ -192,7 +192,7 @@ def section_profile_table(result) -> pd.DataFrame:
 
 
 def _all_options(result) -> pd.DataFrame | None:
-    """The crest's options, then the piping berms (:mod:`trajectory.piping_screen`)."""
+    """The crest's options, then the piping berms (:mod:`trajectory.inner.piping_screen`)."""
     cols = field_names("options")
     # each part holds the fields of its own kind; the others are empty (e.g. the
     # factor of safety of a stability berm on a piping berm's row)

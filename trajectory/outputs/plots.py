@@ -18,7 +18,7 @@ from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 from matplotlib.patches import Patch
 
-from ..status import STATUSES
+from ..judgement.status import STATUSES
 from .style import INK, STATUS_COLOURS
 
 

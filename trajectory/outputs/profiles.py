@@ -62,7 +62,7 @@ def worst_stability_chainages(stations: pd.DataFrame, *, n: int = REPORT_PROFILE
     """
     if "stability_fos" not in stations:
         return np.array([])
-    from ..stability_berms import short_runs
+    from ..inner.stability_berms import short_runs
 
     fos = stations["stability_fos"].to_numpy(float)
     ratio = fos / stations["stability_required"].to_numpy(float)

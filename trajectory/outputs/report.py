@@ -26,7 +26,7 @@ from matplotlib.figure import Figure
 
 from .. import CAUTION
 from ..errors import InputFileError
-from ..status import STATUSES
+from ..judgement.status import STATUSES
 from . import (
     plots,
     report_changes,

@@ -14,7 +14,7 @@ import numpy as np
 import pandas as pd
 from matplotlib.figure import Figure
 
-from ..changes import CHANGES
+from ..judgement.changes import CHANGES
 from .plots import figure_html, new_figure
 from .style import CHANGE_COLOURS, INK, STATUS_COLOURS
 

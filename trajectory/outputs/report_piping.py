@@ -16,7 +16,7 @@ import numpy as np
 import pandas as pd
 from matplotlib.figure import Figure
 
-from ..piping_screen import CAVEAT, berm_face
+from ..inner.piping_screen import CAVEAT, berm_face
 from .plots import figure_html, new_figure
 from .report_data import number_text
 from .style import STATUS_COLOURS

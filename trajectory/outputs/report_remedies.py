@@ -15,7 +15,7 @@ import numpy as np
 import pandas as pd
 from matplotlib.figure import Figure
 
-from ..remedies import CAVEAT, COST_NOTE, OPTIONS, Geometry, outline
+from ..judgement.remedies import CAVEAT, COST_NOTE, OPTIONS, Geometry, outline
 from .plots import figure_html, new_figure
 from .report_data import number_text
 from .style import STATUS_COLOURS

@@ -1,4 +1,4 @@
-"""Report section for the inner-slope stability screening (Bishop 1955, trajectory.stability).
+"""Report section for the inner-slope stability screening (Bishop 1955, trajectory.inner.stability).
 
 Built from the results GeoPackage (:class:`~.report_data.ReportData`): the stability
 fields of ``stations``, the ``stability_berm`` rows of ``options`` and the
@@ -15,8 +15,8 @@ import numpy as np
 import pandas as pd
 from matplotlib.figure import Figure
 
-from .. import stability as sb
-from ..stability_berms import OPTION, berm_face, short_runs
+from ..inner import stability as sb
+from ..inner.stability_berms import OPTION, berm_face, short_runs
 from .plots import figure_html, new_figure
 from .profiles import worst_stability_chainages
 from .report_data import number_text

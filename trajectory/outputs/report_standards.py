@@ -15,7 +15,7 @@ import numpy as np
 import pandas as pd
 from matplotlib.figure import Figure
 
-from ..economics import CAVEAT
+from ..judgement.economics import CAVEAT
 from .plots import figure_html, new_figure
 from .style import INK, STATUS_COLOURS
 

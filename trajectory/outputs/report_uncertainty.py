@@ -18,7 +18,7 @@ from matplotlib.figure import Figure
 from matplotlib.patches import Patch
 
 from ..errors import TrajectoryError
-from ..uncertainty import CUSTOM, FIRM_SIGMAS, VerticalAccuracy, accuracy_preset
+from ..judgement.uncertainty import CUSTOM, FIRM_SIGMAS, VerticalAccuracy, accuracy_preset
 from .plots import figure_html, new_figure
 from .report_data import number_text
 from .style import INK

@@ -122,7 +122,8 @@ STATION_FIELDS: tuple[Field, ...] = (
        "design_outer_slope; flag design_slope)"),
 )
 
-# --- several surveys (trajectory.epochs): stations and stretches fields, the `epochs` layer
+# --- several surveys (trajectory.judgement.epochs): stations and stretches fields,
+# the `epochs` layer
 EPOCH_STATION_FIELDS: tuple[Field, ...] = (
     _f("epochs_used", "int", "", "Number of surveys in which the crest was read"),
     _f("first_year", "float", "year", "Date of the first survey read (decimal year)"),
@@ -189,7 +190,7 @@ FREQUENCY_STATION_FIELDS: tuple[Field, ...] = (
        "rate; the survey year if already below (empty: not projected)"),
 )
 STATION_FIELDS = STATION_FIELDS + FREQUENCY_STATION_FIELDS
-# --- known structures and accepted exceptions (trajectory.structures)
+# --- known structures and accepted exceptions (trajectory.judgement.structures)
 STATION_FIELDS = STATION_FIELDS + (
     _f("ground_crest_level", "float", "m",
        "Crest level read from the DEM (crest_level differs where a structure gives it)"),
@@ -200,7 +201,7 @@ STATION_FIELDS = STATION_FIELDS + (
     _f("structure_note", "str", "", "Their note(s), ';'-joined"),
 )
 
-# --- piping (backward erosion) screened on the measured profile (trajectory.piping_screen)
+# --- piping (backward erosion) screened on the measured profile (trajectory.inner.piping_screen)
 PIPING_STATION_FIELDS: tuple[Field, ...] = (
     _f("piping_status", "str", "",
        "ok | short (seepage path shorter than a rule requires) | no_data (entry or exit not "
@@ -248,7 +249,7 @@ PIPING_STRETCH_FIELDS: tuple[Field, ...] = (
     _f("piping_rule", "str", "", "Governing rule at the worst station"),
 )
 
-# --- inner-slope stability (trajectory.stability): Bishop (1955) on the measured inner side
+# --- inner-slope stability (trajectory.inner.stability): Bishop (1955) on the measured inner side
 STABILITY_STATION_FIELDS: tuple[Field, ...] = (
     _f("stability_fos", "float", "-",
        "Least factor of safety of the inner slope over the circles searched, Bishop (1955) "
@@ -281,7 +282,7 @@ SLIP_CIRCLE_FIELDS: tuple[Field, ...] = (
                                                            "phreatic_entry_level")),
 )
 
-# --- what changed since the previous survey (trajectory.changes)
+# --- what changed since the previous survey (trajectory.judgement.changes)
 CHANGE_STATION_FIELDS: tuple[Field, ...] = (
     _f("status_previous", "str", "",
        "Verdict of the previous survey under today's rules (conditions, parameters, known "
@@ -534,7 +535,7 @@ if __name__ == "__main__":  # python -m trajectory.outputs.schema README.md docs
     import sys
     from pathlib import Path
 
-    from ..conditions import refresh_readme_tables
+    from ..inputs.conditions import refresh_readme_tables
 
     for arg in sys.argv[1:]:
         p = Path(arg)

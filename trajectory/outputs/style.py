@@ -18,7 +18,7 @@ from datetime import UTC, datetime
 from pathlib import Path
 from xml.sax.saxutils import escape, quoteattr
 
-from ..status import STATUSES
+from ..judgement.status import STATUSES
 from .atomic import atomic_path
 
 #: fill colour of each status (hex sRGB)

@@ -135,8 +135,8 @@ def write_workbook(stations: pd.DataFrame, stretches: pd.DataFrame, metadata: di
     ``options`` (options layer's fields; the sheet is left out when None), the
     ``piping`` stretches (left out when None or empty), the ``economics`` (van Dantzig
     per section; left out when None or empty) and metadata."""
-    from ..remedies import CAVEAT, COST_NOTE
-    from ..stability import CAUTION as STABILITY_CAUTION
+    from ..inner.stability import CAUTION as STABILITY_CAUTION
+    from ..judgement.remedies import CAVEAT, COST_NOTE
 
     wb = Workbook()
     _sheet(wb, "stations", stations, _units("stations"), CAUTION, kinds=_kinds("stations"))
@@ -151,12 +151,12 @@ def write_workbook(stations: pd.DataFrame, stretches: pd.DataFrame, metadata: di
                f"(option stability_berm): {STABILITY_CAUTION}",
                bold_rows=cheapest, kinds=_kinds("options"))
     if piping is not None and not piping.empty:
-        from ..piping_screen import CAVEAT as PIPING_CAVEAT
+        from ..inner.piping_screen import CAVEAT as PIPING_CAVEAT
 
         _sheet(wb, "piping_stretches", piping, _units("piping_stretches"),
                f"{CAUTION} {PIPING_CAVEAT}", kinds=_kinds("piping_stretches"))
     if economics is not None and not economics.empty:
-        from ..economics import CAVEAT as ECONOMICS_CAVEAT
+        from ..judgement.economics import CAVEAT as ECONOMICS_CAVEAT
 
         _sheet(wb, "economics", economics, _units("economics"),
                f"{CAUTION} {ECONOMICS_CAVEAT}", kinds=_kinds("economics"))
