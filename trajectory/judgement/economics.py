@@ -57,11 +57,8 @@ def section_economics(stations: pd.DataFrame, table: pd.DataFrame, *,
     times that length, times ``unit_cost``, plus ``raise_fixed_cost`` per km.
     """
     cols = ("flood_damage", "discount_rate")
-    from ..outputs.schema import field_names
-
-    names = field_names("economics")
     if not all(c in table.columns for c in cols):
-        return pd.DataFrame({c: [] for c in names})
+        return pd.DataFrame()
     use = table[np.isfinite(table["flood_damage"].to_numpy(float))
                 & np.isfinite(table["discount_rate"].to_numpy(float))]
     sid = stations["section_id"].to_numpy(object)
@@ -116,4 +113,5 @@ def section_economics(stations: pd.DataFrame, table: pd.DataFrame, *,
             "optimal_probability": float(p_star),
             "optimal_return_period": 1.0 / float(p_star) if p_star > 0 else np.nan,
         })
-    return pd.DataFrame(rows, columns=names) if rows else pd.DataFrame({c: [] for c in names})
+    # the writers order the columns by the output schema (outputs/schema.py, "economics")
+    return pd.DataFrame(rows)

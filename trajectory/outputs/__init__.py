@@ -1,4 +1,8 @@
-"""Output writers: GeoPackage layers and the deficit table."""
+"""The outputs: the schema (every layer and field, declared once), the GeoPackage with its
+styles, the CSV and XLSX tables, the report with its figures, all staged and switched together.
+
+May import every stage below the run (inputs to inner); never the run or the front ends.
+"""
 
 from __future__ import annotations
 
