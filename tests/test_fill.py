@@ -8,7 +8,7 @@ import pytest
 from shapely.geometry import Polygon
 
 from trajectory.judgement.remedies import Geometry, raise_area
-from trajectory.outputs.fill import stretch_table
+from trajectory.judgement.stretch_table import raise_and_rank
 
 
 def _ground(height, crest, m, n, dh=0.0, inner_height=None):
@@ -65,7 +65,7 @@ def test_stretch_table_by_chainage_ranked_by_worst_margin_with_length_and_volume
         "status": ["ok", "deficit", "watch", "ok", "no_data", "ok"],
         "worst_margin": [0.3, -0.4, 0.05, 0.3, np.nan, 0.3],
     })
-    t = stretch_table(st, stretches)
+    t = raise_and_rank(st, stretches)
     assert t["from_chainage"].tolist() == stretches["from_chainage"].tolist()
     assert t["severity_rank"].tolist() == [3, 1, 2, 4, 6, 5]
     t = t.sort_values("severity_rank")

@@ -104,13 +104,11 @@ def test_demo_closing_options_close_at_every_station(demo, demo_result):
 
 
 def test_demo_shows_one_raise_per_stretch(demo_result):
-    from trajectory.outputs.fill import stretch_table
     from trajectory.outputs.geopackage import option_frame, stretch_frame
-    from trajectory.outputs.table import deficit_frame
 
     result, _ = demo_result
     opt = option_frame(result)
-    table = stretch_table(deficit_frame(result), stretch_frame(result), opt)
+    table = stretch_frame(result)
     raises = opt[opt["option"] == "raise"]
     for from_ch, rows in raises.groupby("from_chainage"):
         # both bases give the same raise, and the stretch table (summary) shows it

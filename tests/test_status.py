@@ -79,9 +79,9 @@ def test_absorbed_count_in_the_stretch_layer():
 
     import pandas as pd
 
-    from trajectory.outputs.geopackage import _absorbed
+    from trajectory.judgement.stretch_table import absorbed
 
     seq = ["ok"] * 4 + ["deficit"] * 3 + ["ok"] + ["deficit"] * 3 + ["ok"] * 4
     s = _merge(seq, min_length=50.0)
     fake = SimpleNamespace(stations=pd.DataFrame({"status": seq}), stretches=s)
-    assert _absorbed(fake.stations["status"].to_numpy(object), s).tolist() == [0, 1, 0]
+    assert absorbed(fake.stations["status"].to_numpy(object), s).tolist() == [0, 1, 0]

@@ -128,3 +128,19 @@ def test_asset_register_columns_coordinates_units_filter_and_formats(demo_result
             assert fmt["first_year"] == "0"
         if "worst_margin" in fmt:
             assert fmt["worst_margin"] == "0.00" and fmt["fill_volume"] == "#,##0"
+
+
+def test_one_stretch_table_in_the_geopackage_and_the_csv(demo_result):
+    """The stretches layer (which the report reads) and the stretch CSV show the same raise,
+    fill and rank: one table computed in the run (judgement/stretch_table.py)."""
+    import geopandas as gpd
+
+    _, out = demo_result
+    layer = gpd.read_file(out, layer="stretches")
+    csv = pd.read_csv(stretch_table_path(out.with_suffix(".csv")), comment="#")
+    assert list(csv.columns) == field_names("stretches")
+    assert len(layer) == len(csv)
+    for col in ("from_chainage", "crest_raise", "length_to_raise", "fill_volume"):
+        assert np.allclose(layer[col].to_numpy(float), csv[col].to_numpy(float),
+                           atol=5e-5, equal_nan=True), col   # CSV keeps 4 decimals
+    assert layer["severity_rank"].tolist() == csv["severity_rank"].tolist()

@@ -57,7 +57,14 @@ from .judgement.changes import (
     previous_status,
 )
 from .judgement.economics import section_economics
-from .judgement.epochs import Epoch, EpochLevels, assess_epochs, check_order, projected_year
+from .judgement.epochs import (
+    Epoch,
+    EpochLevels,
+    assess_epochs,
+    check_order,
+    epoch_rows,
+    projected_year,
+)
 from .judgement.remedies import plan_options
 from .judgement.status import (
     EXCLUDED,
@@ -67,6 +74,7 @@ from .judgement.status import (
     merge_stretches,
     station_extents,
 )
+from .judgement.stretch_table import stretch_rows
 from .judgement.structures import (
     StructureMatch,
     Structures,
@@ -157,6 +165,10 @@ class Result:
     piping_options: pd.DataFrame | None = None  # a piping berm per short stretch (the options
     #                                             layer's fields, written after the crest's)
     changes: pd.DataFrame | None = None  # stretches of verdict change (changes.py)
+    # computed once at the end of the run for every writer (judgement/stretch_table.py,
+    # judgement/epochs.py): the stretches with all their figures, the station x survey rows
+    stretch_table: pd.DataFrame | None = None
+    epoch_table: pd.DataFrame | None = None
 
 
 # ---------------------------------------------------------------- chunks
@@ -381,7 +393,19 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     if inputs.line_id_field:
         result.metadata["line_count"] = len(lines)
     _judge_run(result, inputs, s, dem)
+    _tabulate(result)
     return result
+
+
+def _tabulate(result: Result) -> None:
+    """The stretch table and the survey rows, computed once for every writer."""
+    result.stretch_table = stretch_rows(result)
+    levels = result.epochs
+    if levels is None:  # the latest survey alone
+        levels = EpochLevels(labels=("",), years=np.array([np.nan]),
+                             sources=(str(result.metadata.get("input_dem", "")),),
+                             crest=result.stations["crest_level"].to_numpy(float)[:, None])
+    result.epoch_table = epoch_rows(levels, result.stations)
 
 
 def _judge_run(result: Result, inputs: RunInputs, s: Settings, dem: DemInfo) -> None:

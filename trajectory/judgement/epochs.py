@@ -36,6 +36,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
+import pandas as pd
 
 from ..errors import InputError
 from .uncertainty import change_sigma, rate_sigma
@@ -362,3 +363,37 @@ def match_stations(new_chainage: np.ndarray, new_xy: np.ndarray, old_chainage: n
 def _spacing(c: np.ndarray) -> float:
     d = np.diff(np.sort(c))
     return float(np.median(d)) if d.size else float("nan")
+
+
+def epoch_rows(levels: EpochLevels, stations: pd.DataFrame) -> pd.DataFrame:
+    """One row per station and survey epoch, oldest epoch first within a station.
+
+    The crest level, its change since the station's previous readable survey and
+    since its first, and the margin against today's required level; ``x``, ``y`` of
+    the station for the writer's point.
+    """
+    t = stations
+    n, k = levels.crest.shape
+    z = levels.crest
+    prev = np.concatenate([np.full((n, 1), np.nan), z[:, :-1]], axis=1)
+    # change since the station's previous readable survey, and since its first
+    last_seen = np.where(np.isfinite(prev), prev, np.nan)
+    for j in range(2, k):  # carry the last readable level forward (few epochs)
+        last_seen[:, j] = np.where(np.isfinite(last_seen[:, j]), last_seen[:, j],
+                                   last_seen[:, j - 1])
+    ok = np.isfinite(z)
+    first_idx = np.where(ok.any(axis=1), ok.argmax(axis=1), 0)
+    first = z[np.arange(n), first_idx]
+    req = t["required_level"].to_numpy(float)
+    return pd.DataFrame({
+        "chainage": np.repeat(t["chainage"].to_numpy(float), k),
+        "epoch": np.tile(np.asarray(levels.labels, object), n),
+        "year": np.tile(levels.years, n),
+        "source": np.tile(np.asarray(levels.sources, object), n),
+        "crest_level": z.ravel(),
+        "change_previous": (z - last_seen).ravel(),
+        "change_first": (z - first[:, None]).ravel(),
+        "margin": (z - req[:, None]).ravel(),
+        "x": np.repeat(t["x"].to_numpy(float), k),
+        "y": np.repeat(t["y"].to_numpy(float), k),
+    })

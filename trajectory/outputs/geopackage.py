@@ -14,11 +14,9 @@ import shapely
 
 from ..geometry.chainage import line_substrings
 from ..inner.stability import arc_points
-from ..judgement.uncertainty import stretch_uncertainty
-from ..requirement.held import stretch_held
 from .atomic import atomic_path, refuse_overwrite
 from .describe import write_data_columns
-from .epochs_layer import epoch_layer, epoch_stretch_columns
+from .epochs_layer import epoch_layer
 from .profiles import encode_levels, profile_table, stored_chainages, worst_stability_chainages
 from .schema import LAYERS, field_names
 from .style import sld_paths, write_layer_styles, write_slds
@@ -116,43 +114,12 @@ def _pieces_along(result, ids: np.ndarray, from_ch: np.ndarray, to_ch: np.ndarra
 
 
 def stretch_layer(result, *, start: float, reverse: bool) -> gpd.GeoDataFrame:
-    data = _stretch_data(result)
-    geoms = _pieces_along(result, data["line_id"], data["from_chainage"], data["to_chainage"],
-                          start=start, reverse=reverse)
-    return _frame(data, "stretches", geoms, result.crs)
-
-
-def _stretch_data(result) -> dict[str, np.ndarray]:
-    s = result.stretches
-    ids = _line_ids(result)[s.first] if len(s.first) else np.array([], object)
-    data = {"line_id": ids, "from_chainage": s.from_chainage, "to_chainage": s.to_chainage,
-            "length": s.length, "status": s.status, "worst_margin": s.worst_margin,
-            "worst_chainage": s.worst_chainage, "stations": s.last - s.first + 1,
-            "absorbed": _absorbed(result.stations["status"].to_numpy(object), s)}
-    data.update(epoch_stretch_columns(result))
-    data.update(stretch_uncertainty(s, result.stations))  # uncertainty.py
-    data.update(held_stretch_columns(result))  # held.py, economics.py
-    return data
-
-
-def held_stretch_columns(result) -> dict[str, np.ndarray]:
-    """Smallest held return period per stretch, the standard and the economic optimum there."""
-    t, s = result.stations, result.stretches
-    nan = np.full(len(t), np.nan)
-    out, idx = stretch_held(s.first, s.last, t["chainage"].to_numpy(float),
-                            t["return_period_held"].to_numpy(float)
-                            if "return_period_held" in t else nan,
-                            t["held_range"].to_numpy(object) if "held_range" in t
-                            else np.full(len(t), "", object),
-                            t["standard_return_period"].to_numpy(float)
-                            if "standard_return_period" in t else nan)
-    econ = economics_frame(result)
-    opt = dict(zip(zip(econ["line_id"], econ["section_id"], strict=True),
-                   econ["optimal_return_period"], strict=True))
-    ids, sid = _line_ids(result), t["section_id"].to_numpy(object)
-    out["economic_return_period"] = np.array(
-        [opt.get((ids[i], sid[i]), np.nan) if i >= 0 else np.nan for i in idx], dtype=float)
-    return out
+    data = stretch_frame(result)
+    geoms = _pieces_along(result, data["line_id"].to_numpy(object),
+                          data["from_chainage"], data["to_chainage"], start=start,
+                          reverse=reverse)
+    return _frame({c: data[c].to_numpy() for c in data.columns}, "stretches", geoms,
+                  result.crs)
 
 
 def economics_frame(result) -> pd.DataFrame:
@@ -165,17 +132,10 @@ def economics_frame(result) -> pd.DataFrame:
     return e[cols].reset_index(drop=True)
 
 
-def _absorbed(station_status: np.ndarray, s) -> np.ndarray:
-    """Stations per stretch whose own status differs from the stretch's (minimum-length rule)."""
-    n = s.last - s.first + 1
-    own = np.repeat(np.asarray(s.status, object), n)
-    differs = np.concatenate([[0], np.cumsum(station_status != own)])
-    return differs[s.last + 1] - differs[s.first]
-
-
 def stretch_frame(result) -> pd.DataFrame:
-    """The stretches layer's attributes (no geometry), as the tables and report use them."""
-    return pd.DataFrame(_stretch_data(result))[field_names("stretches")]
+    """The stretches layer's attributes (no geometry), as the tables and report use them:
+    the run's stretch table (:mod:`trajectory.judgement.stretch_table`) in contract order."""
+    return result.stretch_table[field_names("stretches")].reset_index(drop=True)
 
 
 def section_profile_table(result) -> pd.DataFrame:

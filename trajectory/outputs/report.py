@@ -39,7 +39,6 @@ from . import (
     report_uncertainty,
 )
 from .atomic import atomic_path
-from .fill import stretch_table
 from .plots import figure_html
 from .profiles import worst_chainages
 from .report_data import ReportData, number_text
@@ -219,9 +218,6 @@ def render_html(data: ReportData, *, extra_sections: Sequence[Section] = ()) -> 
     """The report page as one HTML string (pure: nothing is read or written)."""
     st, sr, meta = data.stations, data.stretches, data.metadata
     attrs = pd.DataFrame(sr.drop(columns="geometry"))[field_names("stretches")]
-    opt = data.layers.get("options")
-    table = stretch_table(st, attrs, None if opt is None else
-                          pd.DataFrame(opt.drop(columns="geometry", errors="ignore")))
     figs = summary_figures(st, attrs)
     chosen = worst_chainages(attrs, st)
     have = np.isin(chosen, data.profiles["chainage"].to_numpy(float))
@@ -244,7 +240,7 @@ def render_html(data: ReportData, *, extra_sections: Sequence[Section] = ()) -> 
         '<section id="summary"><h2>Summary</h2><div class="grid"><div>',
         _summary_table(figs), "</div><div style='flex:1;min-width:320px'>",
         figure_html(plots.length_by_status(attrs), "length per status"), "</div></div>",
-        "<h3>Worst stretches (worst margin first)</h3>", _worst_table(table),
+        "<h3>Worst stretches (worst margin first)</h3>", _worst_table(attrs),
         "<p class='run'>Crest raise, length to raise and fill are screening estimates; "
         "the fill assumes the crest is raised keeping crest width and slopes "
         "(method in the README).</p></section>",

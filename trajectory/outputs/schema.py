@@ -376,6 +376,18 @@ STRETCH_FIELDS = STRETCH_FIELDS + (
        "van Dantzig (1956) economic optimum of that station's section, as a return period"),
 )
 
+# --- the raise that closes each stretch, and its rank (judgement/stretch_table.py)
+STRETCH_FIELDS = STRETCH_FIELDS + (
+    _f("crest_raise", "float", "m", "Crest raise that closes the stretch's gap: the raise "
+       "option's (whole_stretch, incl. settlement of new fill); else required - crest"),
+    _f("length_to_raise", "float", "m",
+       "Chainage length whose crest is below the required level"),
+    _f("fill_volume", "float", "m3",
+       "Estimated fill of that raise, keeping crest width and slopes"),
+    _f("severity_rank", "int", "",
+       "1 = the worst margin of the line(s), then in order (no_data last)"),
+)
+
 #: per section: the classic van Dantzig (1956) single-section optimum (economics.py)
 ECONOMICS_FIELDS: tuple[Field, ...] = (
     _f("line_id", "str", "", "Line the section belongs to (empty for a single line)"),

@@ -20,11 +20,9 @@ def deficit_frame(result):
 
 def units_line(columns, layer: str) -> str:
     """A ``#`` comment line of the columns' units, aligned with the header below it."""
-    from .fill import EXTRA_COLUMNS
     from .schema import LAYERS
 
     unit = {f.name: f.unit for f in LAYERS[layer][1]}
-    unit.update({k: v[0] for k, v in EXTRA_COLUMNS.items()})
     cells = [_csv_cell(unit.get(c, "")) for c in columns]
     return "# units: " + ",".join(cells) + "\n"
 
@@ -70,10 +68,9 @@ def stretch_table_path(table: str | Path) -> Path:
 
 def write_stretch_table(result, path: str | Path, *, overwrite: bool = False) -> Path:
     """Write the stretches, worst margin first, with raise length and fill estimate, as CSV."""
-    from .fill import stretch_table
-    from .geopackage import option_frame, stretch_frame
+    from .geopackage import stretch_frame
 
-    df = stretch_table(deficit_frame(result), stretch_frame(result), option_frame(result))
+    df = stretch_frame(result)
     with atomic_path(path, overwrite=overwrite) as tmp:
         with open(tmp, "w", encoding="utf-8", newline="") as fh:
             fh.write(f"# {CAUTION} Fill volumes are estimates (method in the README).\n")

@@ -20,7 +20,6 @@ import pandas as pd
 
 from .. import CAUTION
 from .atomic import atomic_path
-from .fill import EXTRA_COLUMNS
 from .schema import LAYERS
 from .style import PIPING_COLOURS, STATUS_COLOURS
 from .xlsx import Style, Workbook
@@ -36,9 +35,7 @@ _LIGHT = frozenset({"watch", "no_data", "not_screened"})
 
 
 def _units(layer: str) -> dict[str, str]:
-    u = {f.name: f.unit for f in LAYERS[layer][1]}
-    u.update({k: v[0] for k, v in EXTRA_COLUMNS.items()})
-    return u
+    return {f.name: f.unit for f in LAYERS[layer][1]}
 
 
 def number_format(name: str, unit: str, kind: str = "float") -> str | None:
@@ -173,7 +170,6 @@ def write_workbook(stations: pd.DataFrame, stretches: pd.DataFrame, metadata: di
 
 def write_result_workbook(result, path: str | Path, *, overwrite: bool = False) -> Path:
     """The workbook of an in-memory result."""
-    from .fill import stretch_table
     from .geopackage import (
         change_frame,
         economics_frame,
@@ -185,7 +181,7 @@ def write_result_workbook(result, path: str | Path, *, overwrite: bool = False) 
 
     st = deficit_frame(result)
     options = option_frame(result)
-    return write_workbook(st, stretch_table(st, stretch_frame(result), options),
+    return write_workbook(st, stretch_frame(result),
                           dict(sorted(result.metadata.items())), path, overwrite=overwrite,
                           options=options, economics=economics_frame(result),
                           piping=piping_stretch_frame(result),
