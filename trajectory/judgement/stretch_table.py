@@ -125,8 +125,8 @@ def raise_and_rank(stations: pd.DataFrame, stretches: pd.DataFrame,
     n = len(stretches)
     out = stretches.reset_index(drop=True).copy()
     if n == 0:
-        for c in ("crest_raise", "length_to_raise", "fill_volume"):
-            out[c] = pd.Series([], dtype=float)
+        for name in ("crest_raise", "length_to_raise", "fill_volume"):
+            out[name] = pd.Series([], dtype=float)
         out["severity_rank"] = pd.Series([], dtype=int)
         return out
     start = float(stretches["from_chainage"].min())
