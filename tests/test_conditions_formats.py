@@ -70,16 +70,31 @@ def test_common_formats_give_the_reference_result(scenario, tmp_path, name, kw):
 
 
 @pytest.mark.parametrize("content, text", [
-    ("", "the conditions file is empty"),
-    ("\n  \n# only a comment\n", "holds no header line"),
+    ("", "the conditions file is empty (0 bytes); give the complete file"),
+    ("\n  \n# only a comment\n", "holds no header line; give a CSV whose first line names"),
+    (None, "the table has no rows under its header; give one row per section"),
 ])
 def test_an_empty_table_says_what_to_give(scenario, tmp_path, content, text):
     cond = tmp_path / "c.csv"
-    cond.write_text(content)
+    header = scenario["sections"].read_text().splitlines()[0] + "\n"
+    cond.write_text(header if content is None else content)  # None: the header line only
+    before = _sha(cond)
     res = CliRunner().invoke(main, _args(scenario, cond, tmp_path / "r.gpkg"))
     assert res.exit_code == EXIT_INPUT
-    lines = res.output.strip().splitlines()
-    assert len(lines) == 1 and str(cond) in lines[0] and text in lines[0]
+    assert str(cond) in res.output.splitlines()[0] and text in res.output
+    assert len(res.output.strip().splitlines()) <= 2  # the file line and one finding
+    assert _sha(cond) == before and not (tmp_path / "r.gpkg").exists()
+
+
+def test_decimal_commas_in_a_comma_separated_file_say_how_to_fix(scenario, tmp_path):
+    cond = _rewrite(scenario, tmp_path / "c.csv", decimal=",")  # pandas quotes "4,2"
+    before = _sha(cond)
+    res = CliRunner().invoke(main, _args(scenario, cond, tmp_path / "r.gpkg"))
+    assert res.exit_code == EXIT_INPUT
+    assert str(cond) in res.output.splitlines()[0]
+    assert "column water_level: '4,2' is not a number (a decimal comma: write 4.2, or save " \
+        "the file with ';' as the separator)" in res.output
+    assert _sha(cond) == before and not (tmp_path / "r.gpkg").exists()
 
 
 @pytest.mark.parametrize("wrong, right", [("min_freebord", "min_freeboard"),
@@ -87,11 +102,13 @@ def test_an_empty_table_says_what_to_give(scenario, tmp_path, content, text):
 def test_a_column_one_letter_off_is_an_error_naming_the_likely_one(scenario, tmp_path,
                                                                      wrong, right):
     cond = _rewrite(scenario, tmp_path / "c.csv", rename={right: wrong})
+    before = _sha(cond)
     res = CliRunner().invoke(main, _args(scenario, cond, tmp_path / "r.gpkg"))
     assert res.exit_code == EXIT_INPUT
-    assert f"column {wrong!r} is not known; did you mean {right!r}?" in res.output
+    assert f"column {wrong!r} is not known; did you mean {right!r}? Rename the column" \
+        in res.output
     assert str(cond) in res.output.splitlines()[0]
-    assert not (tmp_path / "r.gpkg").exists()
+    assert _sha(cond) == before and not (tmp_path / "r.gpkg").exists()
 
 
 def test_a_required_column_one_letter_off_is_named_in_the_missing_message(scenario, tmp_path):
@@ -107,8 +124,10 @@ def test_a_section_wholly_beyond_the_line_is_not_a_gap(scenario, tmp_path, caplo
     extra = t.iloc[[-1]].assign(section_id="FAR", from_chainage="400", to_chainage="500")
     cond = tmp_path / "c.csv"
     pd.concat([t, extra]).to_csv(cond, index=False)  # 300-400 m: a gap beyond the 300 m line
+    before = _sha(cond)
     res = CliRunner().invoke(main, _args(scenario, cond, tmp_path / "r.gpkg"))
     assert res.exit_code == EXIT_OK, res.output
+    assert _sha(cond) == before
     assert any("section 'FAR'" in r.message and "not used" in r.message
                for r in caplog.records)
 

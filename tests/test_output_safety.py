@@ -104,17 +104,21 @@ def test_an_output_hard_linked_to_an_input_is_refused(inputs, tmp_path):
 
 
 def test_two_outputs_of_one_name_are_refused(inputs, tmp_path):
+    before = _sums(tmp_path)
     res = _assess(inputs, str(tmp_path / "r.gpkg"), "--report", str(tmp_path / "r.csv"))
     assert res.exit_code == EXIT_INPUT
     line = _error_line(res)
     assert "--report and --table name the same file" in line
     assert list(tmp_path.iterdir()) == [inputs["sections"].parent]
+    assert _sums(tmp_path) == before
 
 
 def test_the_table_named_like_the_geopackage_is_refused(inputs, tmp_path):
+    before = _sums(tmp_path)
     res = _assess(inputs, str(tmp_path / "r.gpkg"), "--table", str(tmp_path / "r.gpkg"))
     assert res.exit_code == EXIT_INPUT
     assert "--table is the deficit table (CSV); give a name ending in .csv" in _error_line(res)
+    assert _sums(tmp_path) == before
 
 
 def test_the_run_file_is_an_input_too(inputs, tmp_path):
@@ -126,6 +130,28 @@ def test_the_run_file_is_an_input_too(inputs, tmp_path):
     assert res.exit_code == EXIT_INPUT
     assert "is the input --config" in _error_line(res)
     assert _sums(tmp_path) == before
+
+
+@pytest.fixture(scope="module")
+def mosaic(tmp_path_factory):
+    out = tmp_path_factory.mktemp("mosaic")
+    return write_scenario(out, spec=LeveeSpec().scaled(300.0), centreline=make_centreline(300.0),
+                          epochs=False, tile_size_m=100.0)
+
+
+def test_an_output_onto_any_tile_of_the_dem_mosaic_is_refused(mosaic, tmp_path):
+    vrt = Path(shutil.copytree(Path(mosaic["dem"]).parent, tmp_path / "dem")) / "dem.vrt"
+    inputs = dict(centreline=mosaic["centreline"], sections=mosaic["sections"], dem=vrt)
+    tiles = sorted(vrt.parent.glob("*.tif"))
+    assert len(tiles) > 2
+    before = _sums(vrt.parent)
+    for tile in (tiles[0], tiles[len(tiles) // 2]):  # not only the mosaic's last tile
+        res = _assess(inputs, str(tmp_path / "r.gpkg"), "--report", str(tile), "--overwrite")
+        assert res.exit_code == EXIT_INPUT, res.output
+        line = _error_line(res)
+        assert "--report is the input tile " in line and "of --dem" in line
+        assert str(tile) in line and "Choose another output name" in line
+    assert _sums(vrt.parent) == before and not (tmp_path / "r.gpkg").exists()
 
 
 # ------------------------------------------------------- 5. the set is whole
@@ -244,17 +270,21 @@ def test_two_processes_writing_one_new_set_one_wins_one_is_told(scenario, tmp_pa
 # ------------------------------------------------- 6. file-system faults
 def test_output_folder_that_is_a_file(inputs, tmp_path):
     (tmp_path / "results").write_text("a file")
+    before = _sums(tmp_path)
     res = _assess(inputs, str(tmp_path / "results" / "r.gpkg"))
     assert res.exit_code == EXIT_INPUT
-    assert "is a file, not a folder" in _error_line(res)
+    line = _error_line(res)
+    assert "is a file, not a folder" in line and "choose another folder for --out" in line
+    assert _sums(tmp_path) == before
 
 
 def test_output_path_that_is_a_folder(inputs, tmp_path):
     (tmp_path / "r.gpkg").mkdir()
+    before = _sums(tmp_path)
     res = _assess(inputs, str(tmp_path / "r.gpkg"), "--overwrite")
     assert res.exit_code == EXIT_INPUT
     assert "--out is a folder; give a file name inside it" in _error_line(res)
-    assert not list((tmp_path / "r.gpkg").iterdir())
+    assert not list((tmp_path / "r.gpkg").iterdir()) and _sums(tmp_path) == before
 
 
 def test_report_path_that_is_a_folder_replaces_nothing(inputs, previous):
@@ -273,9 +303,12 @@ def test_conditions_path_that_is_a_folder(inputs, tmp_path):
     folder = tmp_path / "sections.csv"
     folder.mkdir()
     inputs = dict(inputs, sections=folder)
+    before = _sums(tmp_path)
     res = _assess(inputs, str(tmp_path / "r.gpkg"))
     assert res.exit_code == EXIT_INPUT
-    assert "is a folder, not a conditions file" in _error_line(res)
+    line = _error_line(res)
+    assert str(folder) in line and "is a folder, not a conditions file (check --conditions)" in line
+    assert _sums(tmp_path) == before and not (tmp_path / "r.gpkg").exists()
 
 
 @pytest.mark.parametrize("out, text", [
@@ -307,19 +340,39 @@ def _tmpfs(where: Path, options: str):
 
 
 def test_disk_full_is_an_input_error_leaving_no_temporaries(inputs, tmp_path):
+    before = _sums(inputs["centreline"].parent)
     with _tmpfs(tmp_path / "small", "size=64k") as small:
         res = _assess(inputs, str(small / "r.gpkg"))
         assert res.exit_code == EXIT_INPUT, res.output
         line = _error_line(res)
         assert str(small) in line and "disk full" in line and "nothing was replaced" in line
         assert not list(small.iterdir())  # no temporaries, nothing half-written
+    assert _sums(inputs["centreline"].parent) == before
+
+
+def test_disk_full_where_only_the_report_goes_names_that_folder(inputs, previous, tmp_path):
+    out, before = previous  # the GeoPackage and tables go to a folder with room
+    inputs_before = _sums(inputs["centreline"].parent)
+    with _tmpfs(tmp_path / "small", "size=64k") as small:
+        res = _assess(inputs, str(out), "--report", str(small / "r.html"), "--overwrite",
+                      "--spacing", "20")
+        assert res.exit_code == EXIT_INPUT, res.output
+        line = _error_line(res)
+        assert line.startswith(f"Error: {small}: ") and "disk full" in line
+        assert not list(small.iterdir())
+    assert _sums(out.parent) == before  # the earlier set whole, no temporaries beside it
+    assert _sums(inputs["centreline"].parent) == inputs_before
 
 
 def test_read_only_folder_is_refused_before_the_run(inputs, tmp_path):
+    before = _sums(inputs["centreline"].parent)
     with _tmpfs(tmp_path / "ro", "ro,size=64k") as ro:
         res = _assess(inputs, str(ro / "r.gpkg"))
         assert res.exit_code == EXIT_INPUT, res.output
-        assert "cannot be written (read-only or no permission)" in _error_line(res)
+        line = _error_line(res)
+        assert str(ro) in line and "cannot be written (read-only or no permission)" in line
+        assert "choose a writable folder for --out" in line
+    assert _sums(inputs["centreline"].parent) == before
 
 
 def test_stale_temporaries_of_a_killed_run_are_removed_by_the_next(inputs, previous):

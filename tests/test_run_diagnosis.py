@@ -171,9 +171,11 @@ def test_a_run_assessing_nothing_says_why_once_and_is_incomplete(scenario, tmp_p
 def test_sections_reaching_beyond_the_dem_still_read_the_levee(scenario, tmp_path):
     # missing data counts in the levee's body only (toe to toe), so a half-width beyond
     # the DEM does not make the stations unreadable: the crest is read as with 60 m
+    before = _sums(*_inputs(scenario, scenario["dem"]))
     res = CliRunner().invoke(main, _args(scenario, scenario["dem"], tmp_path / "r.gpkg",
                                          "--half-width", "2000"))
     assert res.exit_code == EXIT_OK, res.output
+    assert _sums(*_inputs(scenario, scenario["dem"])) == before
     wide = pyogrio.read_dataframe(tmp_path / "r.gpkg", layer="stations")
     res = CliRunner().invoke(main, _args(scenario, scenario["dem"], tmp_path / "n.gpkg"))
     assert res.exit_code == EXIT_OK, res.output
@@ -185,12 +187,19 @@ def test_sections_reaching_beyond_the_dem_still_read_the_levee(scenario, tmp_pat
 
 
 def test_a_line_shorter_than_the_spacing_gets_a_word(scenario, tmp_path, caplog):
+    before = _sums(*_inputs(scenario, scenario["dem"]))
     with caplog.at_level(logging.WARNING, logger="trajectory"):
         res = CliRunner().invoke(main, _args(scenario, scenario["dem"], tmp_path / "r.gpkg",
                                              "--spacing", "400"))
     assert res.exit_code == EXIT_OK, res.output
     said = [r.message for r in caplog.records if "shorter than the spacing" in r.message]
     assert len(said) == 1 and "(400 m)" in said[0] and "lower --spacing" in said[0]
+    # the sections after the one station lie on the line: they hold no station, they are
+    # not "outside the line's chainage" (the 300 m line's chainage is 0-300 m)
+    assert not any("outside the line's chainage" in r.message for r in caplog.records)
+    idle = [r.message for r in caplog.records if "holds no station" in r.message]
+    assert idle and all("(stations at 0-0 m)" in m and "lower --spacing" in m for m in idle)
+    assert _sums(*_inputs(scenario, scenario["dem"])) == before
 
 
 # ------------------------------------------------------------ 8. water side

@@ -111,12 +111,13 @@ def test_an_earlier_survey_unreadable_everywhere_is_an_input_error(tiled, tmp_pa
     old = _copy(tiled, tmp_path / "old")
     for t in old.parent.glob("*.tif"):
         t.unlink()
+    before = _sums(tmp_path / "old")
     res = CliRunner().invoke(main, _args(tiled, tmp_path / "r.gpkg", f"2019={old}",
                                          f"2024={tiled['dem']}"))
     assert res.exit_code == EXIT_INPUT, res.output
     line = _one_line(res, "Error: ")
-    assert str(old) in line
-    assert not (tmp_path / "r.gpkg").exists()
+    assert str(old) in line and "check the file and its tiles" in line
+    assert _sums(tmp_path / "old") == before and not (tmp_path / "r.gpkg").exists()
 
 
 def test_a_truncated_earlier_result_names_the_file(tiled, tmp_path):
@@ -129,5 +130,6 @@ def test_a_truncated_earlier_result_names_the_file(tiled, tmp_path):
     res = CliRunner().invoke(main, _args(tiled, tmp_path / "r.gpkg", f"2024={tiled['dem']}",
                                          extra=["--compare", f"2019={first}"]))
     assert res.exit_code == EXIT_INPUT, res.output
-    assert str(first) in _one_line(res, "Error: ")
+    line = _one_line(res, "Error: ")
+    assert str(first) in line and "give a complete result GeoPackage" in line
     assert _sums(tmp_path) == before

@@ -818,7 +818,9 @@ def _plan_line(c: Centreline, cond: Conditions, s: Settings, *, source: str) -> 
     # the section of each station: by chainage range, or by polygon (spatial join)
     sec, cond = assign_sections(cond, st.chainage, st.x, st.y, source=where)
     if "from_chainage" in cond.table and cond.table["from_chainage"].notna().all():
-        for note in sections_off_the_line(cond.table, st.chainage.min(), st.chainage.max()):
+        line_range = (s.start_chainage, s.start_chainage + c.line.length)
+        for note in sections_off_the_line(cond.table, st.chainage.min(), st.chainage.max(),
+                                          line_range):
             log.warning("%s: %s", where, note)
     return _LinePlan(c.line_id, c.line, cond, st, sec, _water_side(cond, sec, s.water_side))
 
@@ -1024,7 +1026,8 @@ def input_files(inputs: RunInputs, s: Settings,
                     parts = ds.files[1:]
             except rasterio.errors.RasterioError:  # judged when the run opens it
                 parts = []
-            files.update({f"a tile of {role}": q for q in parts})
+            # one role per tile (a shared key kept only the last tile)
+            files.update({f"tile {i} of {role}": q for i, q in enumerate(parts, 1)})
     return files
 
 

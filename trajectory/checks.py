@@ -128,12 +128,26 @@ def condition_plausibility(t: Any, *, row_base: int = 2) -> list[str]:
     return findings
 
 
-def sections_off_the_line(t: Any, first: float, last: float) -> list[str]:
-    """Sections lying wholly outside the stations' chainage ``first``-``last`` (not used)."""
+def sections_off_the_line(t: Any, first: float, last: float,
+                          line: tuple[float, float] | None = None) -> list[str]:
+    """Sections lying wholly outside the stations' chainage ``first``-``last`` (not used).
+
+    ``line`` is the line's own chainage range (the stations' when not given): a section
+    within it but beyond the outer stations is said to hold no station, not to be off the
+    line (a line shorter than the spacing has one station only).
+    """
     lo, hi = t["from_chainage"].to_numpy(float), t["to_chainage"].to_numpy(float)
-    return [f"section {sid!r} ({a:g}-{b:g} m) lies outside the line's chainage "
-            f"({first:g}-{last:g} m) and is not used; check its chainage or --start-chainage"
-            for sid, a, b in zip(t["section_id"], lo, hi, strict=True) if b < first or a > last]
+    start, end = line or (first, last)
+    notes = []
+    for sid, a, b in zip(t["section_id"], lo, hi, strict=True):
+        if b < start or a > end:
+            notes.append(f"section {sid!r} ({a:g}-{b:g} m) lies outside the line's chainage "
+                         f"({start:g}-{end:g} m) and is not used; check its chainage or "
+                         "--start-chainage")
+        elif b < first or a > last:
+            notes.append(f"section {sid!r} ({a:g}-{b:g} m) holds no station (stations at "
+                         f"{first:g}-{last:g} m) and is not used; lower --spacing to assess it")
+    return notes
 
 
 # ---------------------------------------------------------------- parameters

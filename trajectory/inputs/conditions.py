@@ -13,6 +13,7 @@ Every bad row is reported at once, naming the row, the column and the rule.
 from __future__ import annotations
 
 import logging
+import re
 from collections.abc import Callable
 from dataclasses import dataclass, replace
 from pathlib import Path
@@ -237,6 +238,10 @@ _SEPARATORS = (",", ";", "\t")
 _SEP_NAMES = {",": "comma", ";": "semicolon", "\t": "tab"}
 #: encodings tried in turn (UTF-8 with or without BOM, then Windows-1252, then Latin-1)
 _ENCODINGS = ("utf-8-sig", "cp1252", "latin-1")
+#: a number written with a decimal comma in a comma-separated file (quoted, e.g. "4,2")
+_DECIMAL_COMMA = re.compile(r"[-+]?\d+,\d+")
+_DECIMAL_COMMA_HINT = (" (a decimal comma: write 4.2, or save the file with ';' as the "
+                       "separator)")
 
 
 def _read_text_table(p: Path) -> pd.DataFrame:
@@ -366,7 +371,7 @@ def validate_conditions(raw: pd.DataFrame, *, spatial: bool = False, row_base: i
     if unknown:
         log.warning("conditions: ignoring unknown column(s) %s", ", ".join(unknown))
     if raw.empty:
-        return raw, ["the table has no rows"]
+        return raw, ["the table has no rows under its header; give one row per section"]
     n = len(raw)
 
     def text(col: str) -> pd.Series:
@@ -386,7 +391,8 @@ def validate_conditions(raw: pd.DataFrame, *, spatial: bool = False, row_base: i
         vals = pd.to_numeric(cells, errors="coerce").to_numpy(float)
         blank = (cells == "").to_numpy()
         for i in np.flatnonzero(np.isnan(vals) & ~blank):
-            findings.append(f"{row(i)}, column {col}: {cells.iloc[i]!r} is not a number")
+            findings.append(f"{row(i)}, column {col}: {cells.iloc[i]!r} is not a number"
+                            + _DECIMAL_COMMA_HINT * bool(_DECIMAL_COMMA.fullmatch(cells.iloc[i])))
         if col == "water_level":
             level_blank = blank  # may come from a frequency line (checked below)
         elif col in needed:

@@ -47,7 +47,8 @@ def verdict_from_result(epoch: Epoch, *, crs: CRS, chainage: np.ndarray,
     try:
         layers = [str(n) for n, _ in pyogrio.list_layers(p)]
     except Exception as exc:  # pyogrio raises several kinds for unreadable data
-        raise InputFileError(f"{p}: not a GeoPackage GDAL can read ({exc})") from exc
+        raise InputFileError(f"{p}: not a GeoPackage GDAL can read ({exc}); give a complete "
+                             "result GeoPackage or leave out this --compare") from exc
     if "stations" not in layers:
         raise EpochError(f"{p}: no 'stations' layer; give a result GeoPackage written by "
                          "trajectory assess")

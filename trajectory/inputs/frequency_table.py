@@ -95,7 +95,8 @@ def validate_frequency(raw: pd.DataFrame, *,
     if unknown:
         log.warning("frequency table: ignoring unknown column(s) %s", ", ".join(unknown))
     if raw.empty:
-        return {}, ["the table has no rows"]
+        return {}, ["the table has no rows under its header; give one row per frequency "
+                    "line point"]
     n = len(raw)
     findings: list[str] = []
 

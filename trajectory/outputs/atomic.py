@@ -103,7 +103,7 @@ def staged(paths: list[Path], *, overwrite: bool) -> Iterator[dict[Path, Path]]:
     except Exception as exc:  # GDAL and SQLite raise their own types for the same faults
         if isinstance(exc, TrajectoryError):
             raise
-        fault = output_fault(exc, finals[0].parent)
+        fault = output_fault(exc, list(dict.fromkeys(f.parent for f in finals)))
         if fault is None:
             raise
         raise fault from exc

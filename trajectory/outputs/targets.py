@@ -11,7 +11,7 @@ from __future__ import annotations
 import contextlib
 import errno
 import os
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from pathlib import Path
 
 from ..errors import OutputError
@@ -100,20 +100,22 @@ _MESSAGE_ERRNO = {
 }
 
 
-def output_fault(exc: BaseException, folder: str | Path) -> OutputError | None:
-    """A one-line :class:`OutputError` for a file-system fault met writing into ``folder``.
+def output_fault(exc: BaseException, folders: Sequence[str | Path]) -> OutputError | None:
+    """A one-line :class:`OutputError` for a file-system fault met writing into ``folders``.
 
     GDAL and SQLite often word a full disk as something else (a table that
-    "does not exist"), so when no cause names a fault, a small probe file is
-    written into ``folder`` (the failed run's temporaries still there) to see
-    whether the folder itself refuses. None when ``exc`` is not such a fault:
+    "does not exist"), so a small probe file is written into each folder (the
+    failed run's temporaries still there) to see which one refuses: that one is
+    named (the first when none does). None when ``exc`` is not such a fault:
     then it is a bug and must propagate as it is.
     """
     code = _fault_code(exc)
-    if code is None:
-        code = _probe(Path(folder))
+    refusing = [(Path(f), c) for f in folders if (c := _probe(Path(f))) is not None]
+    if code is None and refusing:
+        code = refusing[0][1]
     if code is None:
         return None
+    folder = next((f for f, c in refusing if c == code), Path(folders[0]))
     return OutputError(f"{folder}: the outputs cannot be written: {_ERRNO_TEXT[code]}; "
                        "nothing was replaced")
 
