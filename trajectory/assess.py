@@ -95,6 +95,7 @@ from .structures import (
     read_structures,
     structure_table,
 )
+from .terrain import Terrain, dem_footprint, read_terrain
 from .uncertainty import accuracy_from_settings, simulate, simulation_summary, station_uncertainty
 
 log = logging.getLogger(__name__)
@@ -136,6 +137,7 @@ class Result:
     piping_options: pd.DataFrame | None = None  # a piping berm per short stretch (the options
     #                                             layer's fields, written after the crest's)
     changes: pd.DataFrame | None = None  # stretches of verdict change (changes.py)
+    terrain: Terrain | None = None  # DEM footprint and a hillshade around the line (terrain.py)
 
 
 # ---------------------------------------------------------------- chunks
@@ -301,8 +303,13 @@ def _read_lines(inputs: RunInputs, dem: DemInfo,
 
 
 def run(inputs: RunInputs, settings: Settings | None = None, *,
-        progress: ProgressCallback | None = None) -> Result:
-    """Assess the levee line(s); return the result without writing anything."""
+        progress: ProgressCallback | None = None, terrain_shade: bool = False) -> Result:
+    """Assess the levee line(s); return the result without writing anything.
+
+    ``terrain_shade``: also read a hillshade of the terrain around the line for the
+    report's map (:mod:`trajectory.terrain`; a decimated read of the DEM, so it is
+    asked for only where a report is written). The DEM's footprint is always kept.
+    """
     s = settings or Settings()
     # read the terrain model first: its CRS is the working CRS
     dem = open_dem(inputs.dem)
@@ -326,8 +333,12 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     # line_id column), the design level read off a line at the standard where it is empty
     freq = read_frequency(s.frequency) if s.frequency else None
     if inputs.line_id_field:
+        extents = {c.line_id: (s.start_chainage, s.start_chainage + c.line.length)
+                   for c in lines}
         conds = read_line_conditions(inputs.conditions, [c.line_id for c in lines],
-                                     frequency=freq, extrapolate=s.extrapolate_frequency)
+                                     layer=inputs.conditions_layer, target_crs=dem.crs,
+                                     frequency=freq, extrapolate=s.extrapolate_frequency,
+                                     extents=extents)
     else:
         extent = (s.start_chainage, s.start_chainage + lines[0].line.length)
         conds = {"": read_conditions(inputs.conditions, layer=inputs.conditions_layer,
@@ -360,7 +371,19 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     if inputs.line_id_field:
         result.metadata["line_count"] = len(lines)
     _judge_run(result, inputs, s, dem)
+    result.terrain = (_terrain(dem, all_lines, reading, s) if terrain_shade
+                      else dem_footprint(dem.path))
     return result
+
+
+def _terrain(dem: DemInfo, line: LineString | MultiLineString, reading: DemReading,
+             s: Settings) -> Terrain:
+    """Background for the map: the DEM's footprint, a hillshade of the ground near the line.
+
+    The band is twice the sections' half width: about the cells the sections read.
+    """
+    return read_terrain(dem.path, line, band=2.0 * s.half_width, scale=reading.scale,
+                        fill_values=reading.fill_values)
 
 
 def _judge_run(result: Result, inputs: RunInputs, s: Settings, dem: DemInfo) -> None:
@@ -908,7 +931,7 @@ def assess(inputs: RunInputs, out: str | Path, settings: Settings | None = None,
     forget_switched(files)
     for p in files:
         refuse_overwrite(p, overwrite=overwrite)
-    result = run(inputs, s, progress=progress)
+    result = run(inputs, s, progress=progress, terrain_shade=report_path is not None)
     parallel = s.workers != 1 and not s.scheduler and (os.cpu_count() or 1) > 1
     with staged(files, overwrite=overwrite) as tmp:
         def geopackage() -> None:
