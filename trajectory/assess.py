@@ -124,6 +124,7 @@ from .requirement.crest_level import (
 )
 from .requirement.held import HELD_COLUMNS, empty_held, station_held
 from .terrain.demread import DemReading, reading_rules, with_rules
+from .terrain.hillshade import Terrain, dem_footprint, read_terrain
 from .terrain.profile import FLAGS, ProfileMetrics, breaks_text, flag_text, read_profiles
 
 log = logging.getLogger(__name__)
@@ -169,6 +170,7 @@ class Result:
     # judgement/epochs.py): the stretches with all their figures, the station x survey rows
     stretch_table: pd.DataFrame | None = None
     epoch_table: pd.DataFrame | None = None
+    terrain: Terrain | None = None  # DEM footprint and a hillshade (terrain/hillshade.py)
 
 
 # ---------------------------------------------------------------- chunks
@@ -334,8 +336,13 @@ def _read_lines(inputs: RunInputs, dem: DemInfo,
 
 
 def run(inputs: RunInputs, settings: Settings | None = None, *,
-        progress: ProgressCallback | None = None) -> Result:
-    """Assess the levee line(s); return the result without writing anything."""
+        progress: ProgressCallback | None = None, terrain_shade: bool = False) -> Result:
+    """Assess the levee line(s); return the result without writing anything.
+
+    ``terrain_shade``: also read a hillshade of the terrain around the line for the
+    report's map (:mod:`trajectory.terrain.hillshade`; a decimated read of the DEM, so it is
+    asked for only where a report is written). The DEM's footprint is always kept.
+    """
     s = settings or Settings()
     # read the terrain model first: its CRS is the working CRS
     dem = open_dem(inputs.dem)
@@ -359,8 +366,12 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     # line_id column), the design level read off a line at the standard where it is empty
     freq = read_frequency(s.frequency) if s.frequency else None
     if inputs.line_id_field:
+        extents = {c.line_id: (s.start_chainage, s.start_chainage + c.line.length)
+                   for c in lines}
         conds = read_line_conditions(inputs.conditions, [c.line_id for c in lines],
-                                     frequency=freq, extrapolate=s.extrapolate_frequency)
+                                     layer=inputs.conditions_layer, target_crs=dem.crs,
+                                     frequency=freq, extrapolate=s.extrapolate_frequency,
+                                     extents=extents)
     else:
         extent = (s.start_chainage, s.start_chainage + lines[0].line.length)
         conds = {"": read_conditions(inputs.conditions, layer=inputs.conditions_layer,
@@ -394,6 +405,8 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
         result.metadata["line_count"] = len(lines)
     _judge_run(result, inputs, s, dem)
     _tabulate(result)
+    result.terrain = (_terrain(dem, all_lines, reading, s) if terrain_shade
+                      else dem_footprint(dem.path))
     return result
 
 
@@ -406,6 +419,16 @@ def _tabulate(result: Result) -> None:
                              sources=(str(result.metadata.get("input_dem", "")),),
                              crest=result.stations["crest_level"].to_numpy(float)[:, None])
     result.epoch_table = epoch_rows(levels, result.stations)
+
+
+def _terrain(dem: DemInfo, line: LineString | MultiLineString, reading: DemReading,
+             s: Settings) -> Terrain:
+    """Background for the map: the DEM's footprint, a hillshade of the ground near the line.
+
+    The band is twice the sections' half width: about the cells the sections read.
+    """
+    return read_terrain(dem.path, line, band=2.0 * s.half_width, scale=reading.scale,
+                        fill_values=reading.fill_values)
 
 
 def _judge_run(result: Result, inputs: RunInputs, s: Settings, dem: DemInfo) -> None:
@@ -955,7 +978,7 @@ def assess(inputs: RunInputs, out: str | Path, settings: Settings | None = None,
     forget_switched(files)
     for p in files:
         refuse_overwrite(p, overwrite=overwrite)
-    result = run(inputs, s, progress=progress)
+    result = run(inputs, s, progress=progress, terrain_shade=report_path is not None)
     parallel = s.workers != 1 and not s.scheduler and (os.cpu_count() or 1) > 1
     with staged(files, overwrite=overwrite) as tmp:
         def geopackage() -> None:

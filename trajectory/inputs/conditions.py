@@ -189,6 +189,70 @@ class Conditions:
 
 
 # ------------------------------------------------------------------ reading
+@dataclass(frozen=True)
+class ConditionsTable:
+    """A conditions file as read, before validation: one reader for every user.
+
+    ``raw`` holds the cells as text with lower-case column names; ``polygons`` the
+    section polygons (working CRS) of a polygon layer, row for row; ``row_base`` the
+    number of the first row in messages (2 for a text table under its header line,
+    1 for the first feature of a vector file).
+    """
+
+    raw: pd.DataFrame
+    polygons: np.ndarray | None
+    row_base: int
+    source: str
+
+    def rows(self, pos: np.ndarray, *, drop: tuple[str, ...] = ()) -> ConditionsTable:
+        """The rows at positions ``pos`` (numbered from ``row_base`` again), less ``drop``."""
+        raw = self.raw.iloc[pos].drop(columns=list(drop)).reset_index(drop=True)
+        polys = None if self.polygons is None else self.polygons[pos]
+        return replace(self, raw=raw, polygons=polys)
+
+
+def read_conditions_table(path: str | Path, *, layer: str | None = None,
+                          target_crs: CRS | None = None) -> ConditionsTable:
+    """Read a conditions file in any accepted form, cells as text, not yet validated.
+
+    A text table (``.csv``, ``.txt``: comma, semicolon with decimal commas or tab;
+    UTF-8, Windows-1252 or Latin-1), or a vector file GDAL reads (a GeoPackage table
+    or section polygons; ``layer`` where it has several, polygons reprojected to
+    ``target_crs``).
+    """
+    p = check_file(path, role="conditions", option="--conditions")
+    polygons = None
+    if p.suffix.lower() in _TEXT_SUFFIXES:
+        raw = _read_text_table(p)
+        row_base = 2  # line number in the file: header is line 1
+    else:
+        raw, polygons = _read_vector(p, layer, target_crs)
+        row_base = 1  # feature number, first is 1
+    raw.columns = [str(c).strip().lower() for c in raw.columns]
+    return ConditionsTable(raw=raw, polygons=polygons, row_base=row_base, source=str(p))
+
+
+def conditions_from_table(t: ConditionsTable, *, frequency: FrequencyTable | None = None,
+                          extrapolate: bool = False,
+                          extent: tuple[float, float] | None = None
+                          ) -> tuple[Conditions | None, list[str]]:
+    """Validate a table as read (:func:`validate_conditions`, and its polygons);
+    return the conditions, or ``None`` and every finding."""
+    polygons = t.polygons
+    table, findings = validate_conditions(t.raw, spatial=polygons is not None,
+                                          row_base=t.row_base, frequency=frequency,
+                                          extrapolate=extrapolate, extent=extent)
+    if polygons is not None and not findings:
+        findings += _polygon_findings(polygons, table["section_id"].to_numpy(object),
+                                      t.row_base)
+    if findings:
+        return None, findings
+    if polygons is not None:
+        polygons = polygons[table["_row"].to_numpy(int) - t.row_base]
+    return Conditions(table=table, polygons=polygons, source=t.source,
+                      lines=section_lines(table, frequency, extrapolate=extrapolate)), []
+
+
 def read_conditions(path: str | Path, *, layer: str | None = None,
                     target_crs: CRS | None = None, frequency: FrequencyTable | None = None,
                     extrapolate: bool = False,
@@ -199,7 +263,7 @@ def read_conditions(path: str | Path, *, layer: str | None = None,
     ----------
     path : str or Path
         A CSV, or a vector file (GeoPackage) holding a non-spatial table or a
-        polygon layer.
+        polygon layer (:func:`read_conditions_table`).
     layer : str, optional
         Layer of a vector file; needed when it has several.
     target_crs : pyproj.CRS, optional
@@ -211,26 +275,12 @@ def read_conditions(path: str | Path, *, layer: str | None = None,
         First and last chainage of the line: a gap between sections lying wholly
         beyond them is not a finding (those sections are not used).
     """
-    p = check_file(path, role="conditions", option="--conditions")
-    polygons = None
-    if p.suffix.lower() in _TEXT_SUFFIXES:
-        raw = _read_text_table(p)
-        row_base = 2  # line number in the file: header is line 1
-    else:
-        raw, polygons = _read_vector(p, layer, target_crs)
-        row_base = 1  # feature number, first is 1
-    raw.columns = [str(c).strip().lower() for c in raw.columns]
-    table, findings = validate_conditions(raw, spatial=polygons is not None, row_base=row_base,
-                                          frequency=frequency, extrapolate=extrapolate,
-                                          extent=extent)
-    if polygons is not None and not findings:
-        findings += _polygon_findings(polygons, table["section_id"].to_numpy(object), row_base)
-    if findings:
-        raise ConditionsError(str(p), findings)
-    if polygons is not None:
-        polygons = polygons[table["_row"].to_numpy(int) - row_base]
-    return Conditions(table=table, polygons=polygons, source=str(p),
-                      lines=section_lines(table, frequency, extrapolate=extrapolate))
+    t = read_conditions_table(path, layer=layer, target_crs=target_crs)
+    cond, findings = conditions_from_table(t, frequency=frequency, extrapolate=extrapolate,
+                                           extent=extent)
+    if cond is None:
+        raise ConditionsError(t.source, findings)
+    return cond
 
 
 #: separators tried on the header line (comma; semicolon of European spreadsheets; tab)

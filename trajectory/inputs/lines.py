@@ -14,21 +14,14 @@ from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
-import pandas as pd
 from pyproj import CRS
 from shapely.geometry import LineString
 
-from ..errors import ConditionsError, InputError, InputFileError
+from ..errors import ConditionsError, InputError
 from ..judgement.status import Stretches
-from .frequency_conditions import section_lines
+from .conditions import Conditions, conditions_from_table, read_conditions_table
 from .frequency_table import FrequencyTable
-from .sources import (
-    Conditions,
-    line_from_parts,
-    read_conditions,
-    read_line_layer,
-    validate_conditions,
-)
+from .sources import line_from_parts, read_line_layer
 
 log = logging.getLogger(__name__)
 
@@ -80,33 +73,34 @@ def read_centrelines(
 
 
 def read_line_conditions(path: str | Path, line_ids: list[str], *,
+                         layer: str | None = None, target_crs: CRS | None = None,
                          frequency: FrequencyTable | None = None,
-                         extrapolate: bool = False) -> dict[str, Conditions]:
-    """Section conditions per line.
+                         extrapolate: bool = False,
+                         extents: dict[str, tuple[float, float]] | None = None,
+                         ) -> dict[str, Conditions]:
+    """Section conditions per line, read by the single line's reader.
 
-    With a ``line_id`` column, each line gets its own rows, validated on their own
-    (so chainage ranges of different lines may overlap); every bad row is reported
-    with its row number in the file. Without that column every line uses the
-    whole table.
+    The file is read by :func:`trajectory.conditions.read_conditions_table` (every
+    form a single line accepts: separators, decimal commas, encodings, GeoPackage
+    tables and section polygons) and validated by the same rules. With a ``line_id``
+    column, each line gets its own rows, validated on their own (so chainage ranges
+    of different lines may overlap; ``extents`` gives each line's first and last
+    chainage, as for a single line); every bad row is reported with its row number
+    in the file. Without that column every line uses the whole table.
     """
-    p = Path(path)
-    if not p.exists():
-        raise InputFileError(f"{p}: conditions file not found")
-    try:
-        raw = pd.read_csv(p, dtype=str, skipinitialspace=True, comment="#")
-    except (pd.errors.EmptyDataError, pd.errors.ParserError, UnicodeDecodeError) as exc:
-        raise InputError(f"{p}: cannot read the conditions table ({exc})") from exc
-    raw.columns = [str(c).strip().lower() for c in raw.columns]
-    if LINE_ID_COLUMN not in raw.columns:
-        cond = read_conditions(p, frequency=frequency, extrapolate=extrapolate)
+    t = read_conditions_table(path, layer=layer, target_crs=target_crs)
+    if LINE_ID_COLUMN not in t.raw.columns:
+        cond, findings = conditions_from_table(t, frequency=frequency, extrapolate=extrapolate)
+        if cond is None:
+            raise ConditionsError(t.source, findings)
         return {lid: cond for lid in line_ids}
-    lid_col = raw[LINE_ID_COLUMN].fillna("").str.strip()
+    lid_col = t.raw[LINE_ID_COLUMN].fillna("").astype(str).str.strip()
     findings: list[str] = []
     for i in (lid_col == "").to_numpy().nonzero()[0]:
-        findings.append(f"row {i + 2}, column {LINE_ID_COLUMN}: empty")
+        findings.append(f"row {i + t.row_base}, column {LINE_ID_COLUMN}: empty")
     unknown = sorted(set(lid_col) - set(line_ids) - {""})
     if unknown:
-        log.warning("%s: conditions for unknown line(s) %s are ignored", p.name,
+        log.warning("%s: conditions for unknown line(s) %s are ignored", Path(t.source).name,
                     ", ".join(unknown))
     out: dict[str, Conditions] = {}
     for lid in line_ids:
@@ -114,20 +108,21 @@ def read_line_conditions(path: str | Path, line_ids: list[str], *,
         if pos.size == 0:
             findings.append(f"no rows for line {lid!r}")
             continue
-        part = raw.iloc[pos].drop(columns=[LINE_ID_COLUMN]).reset_index(drop=True)
-        table, found = validate_conditions(part, frequency=frequency, extrapolate=extrapolate)
-        findings += [_file_rows(f, pos, lid) for f in found]
-        if not found:
-            out[lid] = Conditions(table=table, lines=section_lines(
-                table, frequency, extrapolate=extrapolate))
+        cond, found = conditions_from_table(
+            t.rows(pos, drop=(LINE_ID_COLUMN,)), frequency=frequency,
+            extrapolate=extrapolate, extent=(extents or {}).get(lid))
+        findings += [_file_rows(f, pos, lid, t.row_base) for f in found]
+        if cond is not None:
+            out[lid] = cond
     if findings:
-        raise ConditionsError(str(p), findings)
+        raise ConditionsError(t.source, findings)
     return out
 
 
-def _file_rows(finding: str, pos, lid: str) -> str:
+def _file_rows(finding: str, pos: np.ndarray, lid: str, row_base: int) -> str:
     """A finding about the rows of one line, with row numbers of the whole file."""
-    text = re.sub(r"\brow (\d+)", lambda m: f"row {int(pos[int(m[1]) - 2]) + 2}", finding)
+    text = re.sub(r"\brow (\d+)",
+                  lambda m: f"row {int(pos[int(m[1]) - row_base]) + row_base}", finding)
     return f"line {lid!r}: {text}"
 
 

@@ -20,6 +20,7 @@ from .epochs_layer import epoch_layer
 from .profiles import encode_levels, profile_table, stored_chainages, worst_stability_chainages
 from .schema import LAYERS, field_names
 from .style import sld_paths, write_layer_styles, write_slds
+from .terrain_layers import dem_extent_layer, write_terrain_shade
 
 
 def _frame(data: dict, layer: str, geometry, crs) -> gpd.GeoDataFrame:
@@ -296,6 +297,7 @@ def write_geopackage(result, path: str | Path, *, overwrite: bool = False,
                                         start=start, reverse=reverse),
         "slip_circles": slip_circle_layer(result),
         "changes": _runs_layer(result, "changes", "changes", start=start, reverse=reverse),
+        "dem_extent": dem_extent_layer(result),
     }
     assert set(layers) == set(LAYERS)
     slds = sld_paths(path) if styles else {}
@@ -308,6 +310,7 @@ def write_geopackage(result, path: str | Path, *, overwrite: bool = False,
                 else None
             pyogrio.write_dataframe(frame, tmp, layer=name, driver="GPKG",
                                     **({"geometry_type": kind} if kind else {}))
+        write_terrain_shade(result, tmp)
         # field descriptions and default styles, inside the temp file before the rename
         with contextlib.closing(sqlite3.connect(tmp)) as con, con:
             write_data_columns(con)

@@ -108,12 +108,23 @@ def longitudinal(stations: pd.DataFrame, stretches: pd.DataFrame) -> Figure:
     return fig
 
 
-def overview_map(stations: pd.DataFrame, stretches) -> Figure:
-    """Plan view of the line, stretches coloured by status (a GeoDataFrame with geometry)."""
+def overview_map(stations: pd.DataFrame, stretches, *,
+                 terrain: tuple[np.ndarray, tuple[float, ...]] | None = None) -> Figure:
+    """Plan view of the line, stretches coloured by status (a GeoDataFrame with geometry).
+
+    ``terrain``: a hillshade (uint8, 0 no value, row 0 north) and its bounds (left,
+    bottom, right, top), drawn in grey under the line.
+    """
     x0, y0, x1, y1 = stretches.total_bounds
     ratio = float(np.clip((y1 - y0) / max(x1 - x0, 1e-9), 0.3, 1.3))
     fig = _figure(8.0, 1.4 + 6.6 * ratio)
     ax = fig.add_subplot()
+    if terrain is not None:
+        shade, (left, bottom, right, top) = terrain
+        ax.imshow(np.ma.masked_equal(shade, 0), cmap="gray", vmin=1, vmax=255, alpha=0.7,
+                  extent=(left, right, bottom, top), origin="upper",
+                  interpolation="bilinear", zorder=0)
+        ax.ignore_existing_data_limits = True  # the view is the line's, not the shade's
     for status in STATUSES:
         sub = stretches[stretches["status"] == status]
         for g in sub.geometry:

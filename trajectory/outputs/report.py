@@ -44,6 +44,7 @@ from .profiles import worst_chainages
 from .report_data import ReportData, number_text
 from .schema import field_names
 from .style import STATUS_COLOURS
+from .terrain_layers import read_terrain_shade
 
 log = logging.getLogger(__name__)
 
@@ -70,7 +71,7 @@ SECTION_BUILDERS: tuple[SectionBuilder, ...] = (
 
 #: layers read into ReportData's own fields, or not needed by the report
 _CORE = {"stations", "stretches", "run_metadata", "section_profiles", "layer_styles",
-         "cross_sections", "crest_line"}
+         "cross_sections", "crest_line", "dem_extent"}
 
 
 def load_report_data(gpkg: str | Path, *, name: str | None = None) -> ReportData:
@@ -97,7 +98,8 @@ def load_report_data(gpkg: str | Path, *, name: str | None = None) -> ReportData
     layers = {n: pyogrio.read_dataframe(p, layer=n) for n in sorted(names - _CORE)}
     return ReportData(stations=stations, stretches=stretches,
                       metadata=dict(zip(meta["key"], meta["value"], strict=True)),
-                      profiles=pd.DataFrame(profiles), source=name or p.name, layers=layers)
+                      profiles=pd.DataFrame(profiles), source=name or p.name, layers=layers,
+                      terrain=read_terrain_shade(p))
 
 
 def summary_figures(stations: pd.DataFrame, stretches: pd.DataFrame) -> dict[str, float]:
@@ -245,7 +247,7 @@ def render_html(data: ReportData, *, extra_sections: Sequence[Section] = ()) -> 
         "the fill assumes the crest is raised keeping crest width and slopes "
         "(method in the README).</p></section>",
         _section_html("Along the levee", plots.longitudinal(st, attrs), "longitudinal"),
-        _section_html("Overview map", plots.overview_map(st, sr), "map"),
+        _section_html("Overview map", plots.overview_map(st, sr, terrain=data.terrain), "map"),
     ]
     fig = plots.cross_sections(data.profiles, st, chosen[have])
     if fig is not None:

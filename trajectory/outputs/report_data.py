@@ -22,6 +22,8 @@ class ReportData:
     profiles: pd.DataFrame        # section_profiles (may be empty)
     source: str                   # file name of the GeoPackage
     layers: dict[str, pd.DataFrame] = field(default_factory=dict)  # any further layers
+    #: hillshade under the line (uint8 as gdaldem writes it, 0 no value) and its bounds
+    terrain: tuple[np.ndarray, tuple[float, ...]] | None = None
 
 
 def number_text(v: object, fmt: str, *, missing: str = "", text: bool = False) -> str:

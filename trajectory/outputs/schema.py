@@ -469,6 +469,13 @@ STRUCTURE_FIELDS: tuple[Field, ...] = (
     _f("stations", "int", "", "Number of stations it covers in this run"),
 )
 
+DEM_EXTENT_FIELDS: tuple[Field, ...] = (
+    _f("dem", "str", "", "File name of the terrain model (the survey that gives the status)"),
+    _f("cell_size", "float", "m", "Its cell size"),
+    _f("columns", "int", "", "Its width in cells"),
+    _f("rows", "int", "", "Its height in cells"),
+)
+
 METADATA_FIELDS: tuple[Field, ...] = (
     _f("key", "str", "", "Item of the run's metadata"),
     _f("value", "str", "", "Its value"),
@@ -489,6 +496,16 @@ LAYERS: dict[str, tuple[str | None, tuple[Field, ...]]] = {
     "piping_stretches": ("LineString", PIPING_STRETCH_FIELDS),
     "slip_circles": ("LineString Z", SLIP_CIRCLE_FIELDS),
     "changes": ("LineString", CHANGE_FIELDS),
+    "dem_extent": ("Polygon", DEM_EXTENT_FIELDS),
+}
+
+#: raster tables of the GeoPackage (GeoPackage tiles): name -> what it holds
+RASTERS: dict[str, str] = {
+    "terrain_shade": "Hillshade of the terrain model along the line, for context (Horn 1981 "
+                     "slope and aspect, sun at azimuth 315 and altitude 45 degrees as gdaldem "
+                     "hillshade; 1 + 254 x illumination, 0 no value), decimated to at most "
+                     "800 pixels across; written with a report (--report), absent where the line's "
+                     "extent holds no DEM value",
 }
 
 #: what each layer holds, one line each (gpkg_contents.description)
@@ -511,6 +528,7 @@ LAYER_DESCRIPTIONS: dict[str, str] = {
                         "with schematised soil, not a geotechnical assessment)",
     "slip_circles": "The critical slip circle (Bishop 1955) of each station screened for "
                     "inner-slope stability, drawn in its section's vertical plane",
+    "dem_extent": "Footprint of the terrain model (its bounds), for context in the GIS view",
 }
 
 # --- several lines in one run: the spatial layers lead with the line's id

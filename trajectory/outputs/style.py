@@ -63,6 +63,7 @@ LAYER_LOOK: dict[str, tuple[str, str | None, float]] = {
     "changes": ("line", "change", 2.4),
     "piping_stretches": ("line", None, 1.8),
     "slip_circles": ("line", None, 0.4),
+    "dem_extent": ("polygon", None, 0.4),   # outline only: context under the other layers
 }
 #: layer -> label expression (QGIS expression) and the SLD's label field: chainages
 LABELS: dict[str, tuple[str, str]] = {
@@ -81,6 +82,7 @@ LABELS: dict[str, tuple[str, str]] = {
                          "|| format_number(\"to_chainage\", 0)", "from_chainage"),
     "slip_circles": ("format_number(\"chainage\", 0) || ' F=' || "
                      "format_number(\"stability_fos\", 2)", "chainage"),
+    "dem_extent": ("\"dem\"", "dem"),  # not along the line: the file's name
 }
 
 _QML_VERSION = "3.28.0"
@@ -107,6 +109,12 @@ def _qml_symbol(name: str, kind: str, colour: str, size: float) -> str:
         return (f'<symbol type="marker" name="{name}" alpha="1" clip_to_extent="1" '
                 f'force_rhr="0"><layer class="SimpleMarker" pass="0" locked="0" enabled="1">'
                 f"{_props(props)}</layer></symbol>")
+    if kind == "polygon":
+        props = {"style": "no", "outline_color": _rgba(colour), "outline_width": f"{size}",
+                 "outline_width_unit": "MM", "outline_style": "dash", "joinstyle": "miter"}
+        return (f'<symbol type="fill" name="{name}" alpha="1" clip_to_extent="1" '
+                f'force_rhr="0"><layer class="SimpleFill" pass="0" locked="0" enabled="1">'
+                f"{_props(props)}</layer></symbol>")
     props = {"line_color": _rgba(colour), "line_width": f"{size}", "line_width_unit": "MM",
              "line_style": "solid", "capstyle": "flat", "joinstyle": "round"}
     return (f'<symbol type="line" name="{name}" alpha="1" clip_to_extent="1" force_rhr="0">'
@@ -118,7 +126,7 @@ def _qml_labels(layer: str, kind: str) -> str:
     """Simple labelling by the layer's chainage expression (placement: around a point,
     along a line), with collision avoidance left to the GIS."""
     expr = LABELS[layer][0]
-    placement = "0" if kind == "point" else "2"
+    placement = "2" if kind == "line" else "0"
     return ('<labeling type="simple"><settings calloutType="simple">'
             f'<text-style fieldName={quoteattr(expr)} isExpression="1" fontSize="7" '
             f'fontSizeUnit="Point" textColor="{_rgba(INK)}" fontFamily="Sans Serif" '
@@ -163,7 +171,11 @@ def qml(layer: str) -> str:
     return ("<!DOCTYPE qgis PUBLIC 'http://mrcc.com/qgis.dtd' 'SYSTEM'>\n"
             f'<qgis version="{_QML_VERSION}" styleCategories="AllStyleCategories" '
             f'labelsEnabled="1">{renderer}{_qml_labels(layer, kind)}{_qml_aliases(layer)}'
-            f"<layerGeometryType>{0 if kind == 'point' else 1}</layerGeometryType></qgis>\n")
+            f"<layerGeometryType>{_GEOMETRY_TYPE[kind]}</layerGeometryType></qgis>\n")
+
+
+#: QGIS geometry type number of each kind
+_GEOMETRY_TYPE = {"point": 0, "line": 1, "polygon": 2}
 
 
 def _sld_symbolizer(kind: str, colour: str, size_mm: float) -> str:
@@ -175,6 +187,11 @@ def _sld_symbolizer(kind: str, colour: str, size_mm: float) -> str:
                 f'<Stroke><CssParameter name="stroke">{INK}</CssParameter>'
                 f'<CssParameter name="stroke-width">0.7</CssParameter></Stroke></Mark>'
                 f"<Size>{px}</Size></Graphic></PointSymbolizer>")
+    if kind == "polygon":
+        return (f'<PolygonSymbolizer><Stroke><CssParameter name="stroke">{colour}'
+                f'</CssParameter><CssParameter name="stroke-width">{px}</CssParameter>'
+                '<CssParameter name="stroke-dasharray">6 3</CssParameter></Stroke>'
+                "</PolygonSymbolizer>")
     return (f'<LineSymbolizer><Stroke><CssParameter name="stroke">{colour}</CssParameter>'
             f'<CssParameter name="stroke-width">{px}</CssParameter>'
             f'<CssParameter name="stroke-linecap">butt</CssParameter></Stroke></LineSymbolizer>')
