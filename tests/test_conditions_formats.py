@@ -54,6 +54,7 @@ def _rewrite(scenario, path, *, sep=",", decimal=".", encoding="utf-8", rename=N
 @pytest.mark.parametrize("name, kw", [
     ("semicolon_decimal_comma", {"sep": ";", "decimal": ","}),
     ("tab", {"sep": "\t"}),
+    ("utf8_bom", {"encoding": "utf-8-sig"}),
     ("latin1", {"encoding": "latin-1", "section_id_suffix": " Süd"}),
     ("cp1252", {"encoding": "cp1252", "section_id_suffix": " – Nord"}),
 ])
@@ -94,6 +95,7 @@ def test_decimal_commas_in_a_comma_separated_file_say_how_to_fix(scenario, tmp_p
     assert str(cond) in res.output.splitlines()[0]
     assert "column water_level: '4,2' is not a number (a decimal comma: write 4.2, or save " \
         "the file with ';' as the separator)" in res.output
+    assert "'4,35' is not a number (a decimal comma: write 4.35," in res.output
     assert _sha(cond) == before and not (tmp_path / "r.gpkg").exists()
 
 

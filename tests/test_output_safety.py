@@ -83,13 +83,26 @@ def test_an_output_onto_an_input_is_refused(inputs, tmp_path, option, target, ro
     assert not (tmp_path / "r.gpkg").exists()
 
 
-def test_an_output_through_a_symbolic_link_onto_an_input_is_refused(inputs, tmp_path):
-    link = tmp_path / "results.csv"
-    link.symlink_to(inputs["sections"])
+@pytest.mark.parametrize("how", ["table_linked_to_conditions", "out_linked_to_centreline",
+                                 "out_in_a_linked_folder"])
+def test_an_output_through_a_symbolic_link_onto_an_input_is_refused(inputs, tmp_path, how):
+    if how == "table_linked_to_conditions":
+        link, role = tmp_path / "results.csv", "--conditions"
+        link.symlink_to(inputs["sections"])
+        out, extra = str(tmp_path / "r.gpkg"), ["--table", str(link)]
+    elif how == "out_linked_to_centreline":
+        link, role = tmp_path / "r.gpkg", "--centreline"
+        link.symlink_to(inputs["centreline"])
+        out, extra = str(link), []
+    else:  # a second name for the input folder: the output is the centreline itself
+        link, role = tmp_path / "alias", "--centreline"
+        link.symlink_to(inputs["centreline"].parent, target_is_directory=True)
+        out, extra = str(link / inputs["centreline"].name), []
     before = _sums(inputs["sections"].parent)
-    res = _assess(inputs, str(tmp_path / "r.gpkg"), "--table", str(link), "--overwrite")
+    res = _assess(inputs, out, *extra, "--overwrite")
     assert res.exit_code == EXIT_INPUT
-    assert "is the input --conditions" in _error_line(res)
+    line = _error_line(res)
+    assert f"is the input {role}" in line and "Choose another output name" in line
     assert _sums(inputs["sections"].parent) == before and link.is_symlink()
 
 
@@ -119,6 +132,19 @@ def test_the_table_named_like_the_geopackage_is_refused(inputs, tmp_path):
     assert res.exit_code == EXIT_INPUT
     assert "--table is the deficit table (CSV); give a name ending in .csv" in _error_line(res)
     assert _sums(tmp_path) == before
+
+
+def test_an_earlier_survey_is_an_input_too(inputs, tmp_path):
+    old = Path(shutil.copy2(inputs["dem"], inputs["dem"].with_name("old.tif")))
+    before = _sums(old.parent)
+    args = ["assess", "--centreline", str(inputs["centreline"]), "--dem", f"2019={old}",
+            "--dem", f"2024={inputs['dem']}", "--conditions", str(inputs["sections"]),
+            "--out", str(tmp_path / "r.gpkg"), "--report", str(old), "--overwrite", "--quiet"]
+    res = CliRunner().invoke(main, args)
+    assert res.exit_code == EXIT_INPUT, res.output
+    line = _error_line(res)
+    assert f"--report is the input the earlier survey 2019 ({old})" in line
+    assert _sums(old.parent) == before and not (tmp_path / "r.gpkg").exists()
 
 
 def test_the_run_file_is_an_input_too(inputs, tmp_path):
@@ -278,13 +304,15 @@ def test_output_folder_that_is_a_file(inputs, tmp_path):
     assert _sums(tmp_path) == before
 
 
-def test_output_path_that_is_a_folder(inputs, tmp_path):
-    (tmp_path / "r.gpkg").mkdir()
+@pytest.mark.parametrize("option, name", [("--out", "r.gpkg"), ("--table", "t.csv")])
+def test_output_path_that_is_a_folder(inputs, tmp_path, option, name):
+    (tmp_path / name).mkdir()
     before = _sums(tmp_path)
-    res = _assess(inputs, str(tmp_path / "r.gpkg"), "--overwrite")
+    extra = [] if option == "--out" else ["--table", str(tmp_path / name)]
+    res = _assess(inputs, str(tmp_path / "r.gpkg"), *extra, "--overwrite")
     assert res.exit_code == EXIT_INPUT
-    assert "--out is a folder; give a file name inside it" in _error_line(res)
-    assert not list((tmp_path / "r.gpkg").iterdir()) and _sums(tmp_path) == before
+    assert f"{option} is a folder; give a file name inside it" in _error_line(res)
+    assert not list((tmp_path / name).iterdir()) and _sums(tmp_path) == before
 
 
 def test_report_path_that_is_a_folder_replaces_nothing(inputs, previous):
@@ -364,15 +392,20 @@ def test_disk_full_where_only_the_report_goes_names_that_folder(inputs, previous
     assert _sums(inputs["centreline"].parent) == inputs_before
 
 
-def test_read_only_folder_is_refused_before_the_run(inputs, tmp_path):
+@pytest.mark.parametrize("option", ["--out", "--report"])
+def test_read_only_folder_is_refused_before_the_run(inputs, tmp_path, option):
     before = _sums(inputs["centreline"].parent)
     with _tmpfs(tmp_path / "ro", "ro,size=64k") as ro:
-        res = _assess(inputs, str(ro / "r.gpkg"))
+        if option == "--out":
+            res = _assess(inputs, str(ro / "r.gpkg"))
+        else:  # the report is part of the set: nothing else is written either
+            res = _assess(inputs, str(tmp_path / "r.gpkg"), "--report", str(ro / "r.html"))
         assert res.exit_code == EXIT_INPUT, res.output
         line = _error_line(res)
         assert str(ro) in line and "cannot be written (read-only or no permission)" in line
-        assert "choose a writable folder for --out" in line
+        assert f"choose a writable folder for {option}" in line
     assert _sums(inputs["centreline"].parent) == before
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["in", "ro"]
 
 
 def test_stale_temporaries_of_a_killed_run_are_removed_by_the_next(inputs, previous):

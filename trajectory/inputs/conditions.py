@@ -290,8 +290,6 @@ _SEP_NAMES = {",": "comma", ";": "semicolon", "\t": "tab"}
 _ENCODINGS = ("utf-8-sig", "cp1252", "latin-1")
 #: a number written with a decimal comma in a comma-separated file (quoted, e.g. "4,2")
 _DECIMAL_COMMA = re.compile(r"[-+]?\d+,\d+")
-_DECIMAL_COMMA_HINT = (" (a decimal comma: write 4.2, or save the file with ';' as the "
-                       "separator)")
 
 
 def _read_text_table(p: Path) -> pd.DataFrame:
@@ -441,8 +439,10 @@ def validate_conditions(raw: pd.DataFrame, *, spatial: bool = False, row_base: i
         vals = pd.to_numeric(cells, errors="coerce").to_numpy(float)
         blank = (cells == "").to_numpy()
         for i in np.flatnonzero(np.isnan(vals) & ~blank):
-            findings.append(f"{row(i)}, column {col}: {cells.iloc[i]!r} is not a number"
-                            + _DECIMAL_COMMA_HINT * bool(_DECIMAL_COMMA.fullmatch(cells.iloc[i])))
+            cell = cells.iloc[i]
+            hint = (f" (a decimal comma: write {cell.replace(',', '.')}, or save the file with "
+                    "';' as the separator)") if _DECIMAL_COMMA.fullmatch(cell) else ""
+            findings.append(f"{row(i)}, column {col}: {cell!r} is not a number{hint}")
         if col == "water_level":
             level_blank = blank  # may come from a frequency line (checked below)
         elif col in needed:
