@@ -12,9 +12,9 @@ import numpy as np
 import pandas as pd
 import pyogrio
 import pytest
-from trajectory.lines import read_line_conditions
 
 from trajectory.errors import ConditionsError
+from trajectory.inputs.lines import read_line_conditions
 
 LINES = ["north-a", "north-b"]
 

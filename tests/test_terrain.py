@@ -146,9 +146,8 @@ def test_every_run_keeps_the_dem_extent_without_reading_a_shade(demo, demo_resul
 
 
 def test_a_run_with_a_report_keeps_the_shade_the_report_draws(tmp_path):
-    from trajectory.synthetic import LeveeSpec, make_centreline, write_scenario
-
     from trajectory.assess import RunInputs, assess
+    from trajectory.scenario.synthetic import LeveeSpec, make_centreline, write_scenario
 
     paths = write_scenario(tmp_path, spec=LeveeSpec().scaled(400.0),
                            centreline=make_centreline(400.0), epochs=False)
