@@ -62,6 +62,8 @@ def _evaluate(offsets: np.ndarray, z: np.ndarray, frame: sb.Frame, soil: sb.Soil
 DESIGN_STATIONS = 3
 #: rounds of adding the stations a design fails at before giving up
 ROUNDS = 4
+#: candidates searched together at the design set, in order of fill
+CANDIDATE_BATCH = 6
 
 
 def design(offsets: np.ndarray, z: np.ndarray, frame: sb.Frame, soil: sb.Soil,
@@ -69,8 +71,9 @@ def design(offsets: np.ndarray, z: np.ndarray, frame: sb.Frame, soil: sb.Soil,
            fos_now: np.ndarray, phreatic: str = "line") -> dict:
     """The least-fill candidate berm over one stretch's stations that reaches ``required``.
 
-    Every candidate is searched at the few stations with the least factor of
-    safety; the least-fill one passing there is then searched at every station,
+    The candidates are searched, least fill first and a few at a time, at the few
+    stations with the least factor of safety until one passes there (the least-fill
+    passing one, as if all had been searched); it is then searched at every station,
     and stations it fails at join the design set (at most :data:`ROUNDS` times).
     Where no candidate passes, the one coming closest at the design set is given.
     """
@@ -91,12 +94,20 @@ def design(offsets: np.ndarray, z: np.ndarray, frame: sb.Frame, soil: sb.Soil,
     order = np.argsort(np.where(np.isfinite(fos_now), fos_now / required, np.inf))
     chosen = order[:DESIGN_STATIONS]
     every = np.arange(n)
+    by_fill = np.argsort(fill, kind="stable")   # least fill first, ties in candidate order
     for _ in range(ROUNDS):
-        need(np.repeat(chosen, k), np.tile(np.arange(k), chosen.size))
-        gap = np.nanmin(fos[chosen] - required[chosen, None], axis=0)
-        if not (gap >= 0).any():
+        # the candidates in order of fill, a few at a time, until one passes at the design
+        # set: every cheaper one has failed there, so it is the least-fill passing one
+        c = -1
+        for s in range(0, k, CANDIDATE_BATCH):
+            batch = by_fill[s:s + CANDIDATE_BATCH]
+            need(np.repeat(chosen, batch.size), np.tile(batch, chosen.size))
+            gap = np.nanmin(fos[chosen][:, batch] - required[chosen, None], axis=0)
+            if (gap >= 0).any():
+                c = int(batch[np.argmax(gap >= 0)])
+                break
+        if c < 0:
             break
-        c = int(np.argmin(np.where(gap >= 0, fill, np.inf)))
         need(every, np.full(n, c))
         fails = np.flatnonzero(~(fos[:, c] >= required))
         if fails.size == 0:
