@@ -366,14 +366,13 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     # line_id column), the design level read off a line at the standard where it is empty
     freq = read_frequency(s.frequency) if s.frequency else None
     if inputs.line_id_field:
-        extents = {c.line_id: (s.start_chainage, s.start_chainage + c.line.length)
-                   for c in lines}
+        extents = {c.line_id: _chainage_range(c.line, s) for c in lines}
         conds = read_line_conditions(inputs.conditions, [c.line_id for c in lines],
                                      layer=inputs.conditions_layer, target_crs=dem.crs,
                                      frequency=freq, extrapolate=s.extrapolate_frequency,
                                      extents=extents)
     else:
-        extent = (s.start_chainage, s.start_chainage + lines[0].line.length)
+        extent = _chainage_range(lines[0].line, s)
         conds = {"": read_conditions(inputs.conditions, layer=inputs.conditions_layer,
                                      target_crs=dem.crs, frequency=freq,
                                      extrapolate=s.extrapolate_frequency, extent=extent)}
@@ -408,6 +407,11 @@ def run(inputs: RunInputs, settings: Settings | None = None, *,
     result.terrain = (_terrain(dem, all_lines, reading, s) if terrain_shade
                       else dem_footprint(dem.path))
     return result
+
+
+def _chainage_range(line: LineString, s: Settings) -> tuple[float, float]:
+    """First and last chainage of a line (its own chainage from ``start_chainage``)."""
+    return s.start_chainage, s.start_chainage + line.length
 
 
 def _tabulate(result: Result) -> None:
@@ -841,7 +845,7 @@ def _plan_line(c: Centreline, cond: Conditions, s: Settings, *, source: str) -> 
     # the section of each station: by chainage range, or by polygon (spatial join)
     sec, cond = assign_sections(cond, st.chainage, st.x, st.y, source=where)
     if "from_chainage" in cond.table and cond.table["from_chainage"].notna().all():
-        line_range = (s.start_chainage, s.start_chainage + c.line.length)
+        line_range = _chainage_range(c.line, s)
         for note in sections_off_the_line(cond.table, st.chainage.min(), st.chainage.max(),
                                           line_range):
             log.warning("%s: %s", where, note)

@@ -80,7 +80,7 @@ def read_line_conditions(path: str | Path, line_ids: list[str], *,
                          ) -> dict[str, Conditions]:
     """Section conditions per line, read by the single line's reader.
 
-    The file is read by :func:`trajectory.conditions.read_conditions_table` (every
+    The file is read by :func:`trajectory.inputs.conditions.read_conditions_table` (every
     form a single line accepts: separators, decimal commas, encodings, GeoPackage
     tables and section polygons) and validated by the same rules. With a ``line_id``
     column, each line gets its own rows, validated on their own (so chainage ranges

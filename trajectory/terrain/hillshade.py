@@ -85,11 +85,15 @@ def shade_bytes(illumination: np.ndarray) -> np.ndarray:
 
 def dem_footprint(path: str) -> Terrain:
     """The terrain record of the DEM at ``path`` without its shade (no cell is read)."""
+    with rasterio.open(path) as ds:
+        return _footprint(ds, path)
+
+
+def _footprint(ds: rasterio.io.DatasetReader, path: str) -> Terrain:
     from pathlib import Path
 
-    with rasterio.open(path) as ds:
-        return Terrain(Path(path).name, tuple(float(v) for v in ds.bounds),
-                       float(abs(ds.transform.a)), (int(ds.width), int(ds.height)))
+    return Terrain(Path(path).name, tuple(float(v) for v in ds.bounds),
+                   float(abs(ds.transform.a)), (int(ds.width), int(ds.height)))
 
 
 def read_terrain(path: str, line, *, band: float, scale: float = 1.0,
@@ -102,19 +106,19 @@ def read_terrain(path: str, line, *, band: float, scale: float = 1.0,
     each decimated by GDAL (the nearest cell, or an overview where the file has
     one), so the cost follows the corridor, not the bounding box. ``scale`` turns raw
     values into metres and ``fill_values`` are no value
-    (:class:`trajectory.demread.DemReading`). The shade is ``None`` where the
+    (:class:`trajectory.terrain.demread.DemReading`). The shade is ``None`` where the
     corridor misses the DEM or holds no value.
     """
     import shapely
 
-    terrain = dem_footprint(path)
-    left, bottom, right, top = terrain.dem_bounds
-    lx0, ly0, lx1, ly1 = line.bounds
-    x0, y0 = max(lx0 - band, left), max(ly0 - band, bottom)
-    x1, y1 = min(lx1 + band, right), min(ly1 + band, top)
-    if x1 <= x0 or y1 <= y0:
-        return terrain
     with rasterio.open(path) as ds:
+        terrain = _footprint(ds, path)
+        left, bottom, right, top = terrain.dem_bounds
+        lx0, ly0, lx1, ly1 = line.bounds
+        x0, y0 = max(lx0 - band, left), max(ly0 - band, bottom)
+        x1, y1 = min(lx1 + band, right), min(ly1 + band, top)
+        if x1 <= x0 or y1 <= y0:
+            return terrain
         full = from_bounds(x0, y0, x1, y1, ds.transform).round_offsets().round_lengths()
         full = full.intersection(Window(0, 0, ds.width, ds.height))
         k = max(1, math.ceil(max(full.width, full.height) / max_pixels))  # cells per pixel
