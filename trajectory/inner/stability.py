@@ -19,11 +19,17 @@ number of times for every circle at once. ``m_alpha`` is held at or above
 known since Whitman and Bailey 1967; the 0.2 bound is common practice).
 
 Circles slide towards the land (negative offsets). Each circle is given by its
-exit point (at or beyond the inner toe region), its entry point (on the crest
-or the upper inner slope) and the half-angle it subtends; both points lie on
-the measured ground. The search takes a coarse grid of exits, entries and
-angles for every station at once, then one refinement around each station's
-best circle; the least factor of safety is the station's.
+exit point, its entry point and the half-angle it subtends; both points lie on
+the measured ground. Exits run from where the measured ground comes down to
+half the height (:data:`EXIT_TOP`) over the toe region and beyond the toe,
+entries from the crest's outer edge down to where the ground
+comes down to :data:`ENTRY_LOW` of the height. Both levels are found on the
+measured ground (:func:`ground_at_level`), not on the straight line from toe
+to crest edge: on a levee with an inner berm that line runs inside the berm,
+and slips exiting on the berm or just above it (the critical ones there) would
+be missed. The search takes a coarse grid of exits, entries and angles for
+every station at once, then one refinement around each station's best circle;
+the least factor of safety is the station's.
 
 Phreatic line (schematisation, our own screening choice)
 --------------------------------------------------------
@@ -51,10 +57,13 @@ SLICES, SLICES_COARSE = 24, 12
 #: Bishop fixed-point iterations (from the Fellenius value; within 1e-5 of the converged value)
 ITERATIONS = 6
 #: coarse search grid: exits, entries, half-angles (degrees) per station
-N_EXIT, N_ENTRY = 7, 5
+N_EXIT, N_ENTRY = 9, 5
 ANGLES = (15.0, 27.5, 40.0, 52.5, 65.0)
-#: levels on the inner slope bounding the exits and entries, as shares of the height
-EXIT_TOP, ENTRY_LOW = 0.25, 0.6
+#: levels on the measured inner slope bounding the exits and entries, as shares of the height
+EXIT_TOP, ENTRY_LOW = 0.5, 0.6
+#: share of the exit grid on the slope (from the EXIT_TOP level down to the toe), the rest
+#: beyond the toe
+EXIT_ON_SLOPE = 0.375
 #: how far beyond the inner toe circles may exit: this many times the height (at least 4 m)
 REACH_HEIGHTS, REACH_MIN = 2.0, 4.0
 #: phreatic line schematisations (the ``stability_phreatic`` setting); ``dry`` for checks
@@ -159,6 +168,27 @@ def phreatic_through(offsets: np.ndarray, z: np.ndarray, entry: np.ndarray,
     return np.minimum(lt + t * (le - lt), z)
 
 
+def ground_at_level(offsets: np.ndarray, z: np.ndarray, frame: Frame,
+                    level: np.ndarray) -> np.ndarray:
+    """Offset where the measured ground, walking landward from the inner crest edge,
+    first comes down to ``level`` (n,); the straight slope's offset where it never does.
+
+    ``z`` (stations x offsets, + towards the water) without NaN.
+    """
+    x = np.asarray(offsets, float)
+    step = float(x[1] - x[0])
+    level = np.asarray(level, float)
+    below = (x[None, :] <= frame.inner_edge[:, None]) & (z <= level[:, None])
+    m = x.size
+    j = m - 1 - np.argmax(below[:, ::-1], axis=1)          # the last such sample
+    rows = np.arange(z.shape[0])
+    z0, z1 = z[rows, j], z[rows, np.minimum(j + 1, m - 1)]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        f = np.clip(np.nan_to_num((level - z0) / (z1 - z0), nan=0.0), 0.0, 1.0)
+    at = np.minimum(x[j] + f * step, frame.inner_edge)
+    return np.where(below.any(axis=1), at, frame.slope_at(level))
+
+
 # ------------------------------------------------------------ one set of circles
 def _at(v: np.ndarray, x: np.ndarray, x0: float, step: float,
         *more: np.ndarray) -> np.ndarray | list[np.ndarray]:
@@ -239,15 +269,19 @@ def circle_fos(offsets: np.ndarray, z: np.ndarray, p: np.ndarray, exit_x: np.nda
 
 
 # ------------------------------------------------------------ the search
-def _circles(frame: Frame, reach: np.ndarray, ue: np.ndarray, ux: np.ndarray,
-             theta: np.ndarray, lo: float, hi: float) -> tuple[np.ndarray, ...]:
-    """Exit and entry offsets and half-angle of circles at grid coordinates (n, K)."""
-    top = frame.slope_at(frame.inner_toe_level + EXIT_TOP * frame.height)[:, None]
+def _circles(frame: Frame, reach: np.ndarray, top: np.ndarray, low: np.ndarray,
+             ue: np.ndarray, ux: np.ndarray, theta: np.ndarray, lo: float, hi: float
+             ) -> tuple[np.ndarray, ...]:
+    """Exit and entry offsets and half-angle of circles at grid coordinates (n, K).
+
+    ``top``, ``low``: offsets (n,) where the ground comes down to the exits' upper
+    and the entries' lower level.
+    """
     far = (frame.inner_toe - reach)[:, None]
-    low = frame.slope_at(frame.inner_toe_level + ENTRY_LOW * frame.height)[:, None]
-    # the first third of the exits from the slope down to the toe, the rest beyond it
-    toe = frame.inner_toe[:, None]
-    ex = np.where(ux <= 1 / 3, top + 3 * ux * (toe - top), toe + 1.5 * (ux - 1 / 3) * (far - toe))
+    top, low = top[:, None], low[:, None]
+    # a share of the exits from the slope down to the toe, the rest beyond it
+    toe, s = frame.inner_toe[:, None], EXIT_ON_SLOPE
+    ex = np.where(ux <= s, top + ux / s * (toe - top), toe + (ux - s) / (1 - s) * (far - toe))
     ex = np.clip(ex, lo, hi)
     en = np.clip(frame.outer_edge[:, None] + ue * (low - frame.outer_edge[:, None]), lo, hi)
     return ex, en, theta
@@ -301,13 +335,15 @@ def _search_block(offsets, z, frame, soil, reach, phreatic, exits, entries, angl
     n = z.shape[0]
     lo, hi = float(offsets[0]), float(offsets[-1])
     p = phreatic_levels(offsets, z, frame, mode=phreatic)
+    top = ground_at_level(offsets, z, frame, frame.inner_toe_level + EXIT_TOP * frame.height)
+    low = ground_at_level(offsets, z, frame, frame.inner_toe_level + ENTRY_LOW * frame.height)
     ux, ue, th = np.meshgrid(np.linspace(0, 1, exits), np.linspace(0, 1, entries),
                              np.asarray(angles, float), indexing="ij")
     grid = [np.broadcast_to(a.ravel(), (n, a.size)) for a in (ue, ux, th)]
 
     def run(ue: np.ndarray, ux: np.ndarray, th: np.ndarray, slices: int = SLICES,
             dtype: type = np.float64):
-        ex, en, th = _circles(frame, reach, ue, ux, th, lo, hi)
+        ex, en, th = _circles(frame, reach, top, low, ue, ux, th, lo, hi)
         r = _radius(offsets, z, ex, en, th)
         f, xc, zc = circle_fos(offsets, z.astype(dtype), p.astype(dtype), ex.astype(dtype),
                                en.astype(dtype), r.astype(dtype), soil, slices=slices)
@@ -346,12 +382,15 @@ def berm_profile(offsets: np.ndarray, z: np.ndarray, frame: Frame, *, level: np.
                  width: np.ndarray, face: np.ndarray) -> np.ndarray:
     """The profile with a stability berm on the inner side (stations x offsets).
 
-    A horizontal top at ``level`` from the straight inner slope landward over
-    ``width``, then a face of 1:``face`` down to the ground; fill only, never cut.
+    A horizontal top at ``level`` from where the measured inner slope comes down
+    to it (:func:`ground_at_level`) landward over ``width``, then a face of
+    1:``face`` down to the ground; fill only, never cut.
     """
+    from ..terrain.profile import fill_gaps
+
     x = np.asarray(offsets, float)[None, :]
     level = np.asarray(level, float)[:, None]
-    x_top = frame.slope_at(level[:, 0])[:, None]
+    x_top = ground_at_level(offsets, fill_gaps(np.asarray(z, float)), frame, level[:, 0])[:, None]
     x_end = x_top - np.asarray(width, float)[:, None]
     top = level - np.clip(x_end - x, 0.0, None) / np.asarray(face, float)[:, None]
     on = (x <= x_top) & (np.asarray(width, float)[:, None] > 0)

@@ -19,6 +19,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from ..terrain.profile import fill_gaps
 from . import stability as sb
 
 #: the option's name in the options layer (a kind of its own beside the crest's)
@@ -147,7 +148,8 @@ def plan_berms(stations: pd.DataFrame, offsets: np.ndarray, profiles: np.ndarray
                    phreatic=phreatic)
         g = idx[d["station"]]
         level, width = d["level"], d["width"]
-        x_top = float(frame.slope_at(np.array([level]))[g])
+        zg = fill_gaps(np.asarray(profiles[g:g + 1], float))
+        x_top = float(sb.ground_at_level(offsets, zg, frame.take([g]), np.array([level]))[0])
         foot = x_top - width - (level - float(frame.inner_toe_level[g])) * float(face[g])
         rows.append({
             "from_chainage": float(lo[a]), "to_chainage": float(hi[b]),
