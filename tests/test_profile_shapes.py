@@ -207,3 +207,34 @@ def test_a_survey_that_ends_on_the_slope_is_truncated_not_water():
     assert ((m.flags & FLAGS["outer_truncated"]) > 0).all()
     assert not m.outer_water.any() and not m.outer_toe_dry.any()
     assert np.median(m.outer_slope) == pytest.approx(3.0, abs=0.3)
+
+
+def straight_into_water(x):
+    """Crest 6.0 m, 4 m wide; outer 1:3 straight down into the sea, nodata below 2.0 m
+    (from 14 m out); inner 1:2.5 to the ground at 1.0 m."""
+    x = np.asarray(x, float)
+    z = np.where(x > 2.0, 6.0 - (x - 2.0) / 3.0, 6.0)
+    z = np.where(x < -2.0, np.maximum(6.0 - (-x - 2.0) / 2.5, 1.0), z)
+    return np.where(x > 14.0, np.nan, z)
+
+
+@pytest.mark.parametrize("rs", range(6))
+def test_a_short_knee_near_the_data_end_does_not_make_the_slope_below_gentler(rs):
+    # SWL 3.0 m, Hm0 2.0 m: the lower point of the characteristic slope (SWL - 1.5 Hm0 =
+    # 0.0 m, EurOtop 2018 Section 5.3.4) lies 2 m below the last dry sample, so the slope
+    # is extended there with the lowest piece read. Noise sometimes resolves a "knee" a
+    # metre above the waterline; a gentler piece there must not flatten the extension
+    # (a gentler slope gives a lower run-up: the unsafe side). The truth is 1:3.
+    z, off = sampled(straight_into_water, rows=200, rs=100 + rs)
+    m = read_profiles(z, off, **KW, water_level=3.0)
+    assert m.readable.all() and m.outer_water.all()
+    n = z.shape[0]
+    tan = characteristic_slope(z, off, crest_level=m.crest_level, outer_edge=m.outer_edge,
+                               swl=np.full(n, 3.0), hm0=np.full(n, 2.0),
+                               berm_width=m.outer_berm_width, berm_level=m.outer_berm_level,
+                               outer_toe=m.outer_toe, toe_is_ground=m.outer_toe_dry,
+                               lower_slope=m.outer_lower_slope)
+    got = 1.0 / tan
+    assert np.median(got) == pytest.approx(3.0, abs=0.1)
+    # the worst station no more than 0.15 gentler than the truth
+    assert got.max() <= 3.15

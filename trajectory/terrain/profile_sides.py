@@ -6,7 +6,12 @@ slope follows it down to lower ground (and the lower ground is not the bottom of
 ditch), and the toe otherwise. A flat strip that ends in nodata within
 ``FORESHORE_MAX`` is the toe (a foreshore strip at the waterline), not a berm. Each run
 of slope is one straight segment, or two where a knee (a change of gradient) is
-clearly resolved by the data (composite slopes). Everything is computed for all
+clearly resolved by the data (composite slopes). The lowest piece of a run sets the
+slope used below the data end (``lower_cot``, the extension under water) only where it
+drops at least ``LOWER_PIECE_DROP`` or is steeper than the run's one line: a short gentle
+tail just above the waterline is as often a few samples of noise, tussock or the
+waterline's reflection as real geometry, and a gentler extension lowers the run-up
+(unsafe side). Everything is computed for all
 stations at once; ``s`` is a matrix (stations x samples) running from the crest end
 outward, NaN beyond the section's end.
 """
@@ -51,6 +56,9 @@ EDGE_FIT_LENGTH = 2.5
 KNEE_F = 40.0
 #: ... and their gradients differ by this factor at least
 KNEE_RATIO = 1.25
+#: a lowest piece below a knee dropping less than this (m) sets ``lower_cot`` only where
+#: it is steeper than the whole run's one line
+LOWER_PIECE_DROP = 1.5
 #: segments of each side kept in the breakline model (slope pieces and berms)
 MAX_FLATS, MAX_PIECES = 3, 11
 
@@ -78,7 +86,9 @@ class SideReading:
     berm_start: np.ndarray
     berm_width: np.ndarray
     berm_slope: np.ndarray     # gradient, + falling away from the crest
-    lower_cot: np.ndarray      # n of 1:n of the lowest slope segment (= cot without berm)
+    lower_cot: np.ndarray      # n of 1:n below the data end: the lowest slope segment, or the
+    #                            lowest run's one line where that is steeper than a short
+    #                            lowest piece (see LOWER_PIECE_DROP); = cot without berm
     steepest_cot: np.ndarray   # n of the steepest slope segment
     breaks: np.ndarray         # (stations x MAX_PIECES + 1 x 2): distance, level of each break
     slopes: np.ndarray         # (stations x MAX_PIECES): n of each piece (inf: berm, NaN: none)
@@ -361,6 +371,7 @@ def read_side(s: np.ndarray, meas: np.ndarray, f: np.ndarray, crest: np.ndarray,
     # slope runs: from the crest end (or a berm's end) to the next flat part (or the toe)
     half = max(int(round(0.5 * GRADIENT_WINDOW / step)), 1)
     mids, piece_lines = [], []   # the knee's sample (-1: none) and (a, b) of each piece
+    whole_b = []                 # gradient of each run's one line (no knee)
     run_a = np.zeros(n, int)
     bounds: list[tuple[np.ndarray, np.ndarray]] = []  # (first, last) sample of each run
     for q in range(len(berms) + 1):
@@ -398,6 +409,7 @@ def read_side(s: np.ndarray, meas: np.ndarray, f: np.ndarray, crest: np.ndarray,
         rgt = sums.fit(np.where(split, c + 1, a0), b0)
         mid = np.where(split, c, -1)
         mids.append(mid)
+        whole_b.append(one["b"])
         piece_lines.append(((np.where(split, lft["a"], one["a"]), np.where(split, lft["b"],
                                                                            one["b"])),
                             (np.where(split, rgt["a"], np.nan), np.where(split, rgt["b"],
@@ -470,7 +482,15 @@ def read_side(s: np.ndarray, meas: np.ndarray, f: np.ndarray, crest: np.ndarray,
         last_a, last_b = np.where(split, a2, a1), np.where(split, b2, b1)
         last_c = np.where(split, c2, c1)
         add_piece(ok, last_c)
-        lower_cot = np.where(ok & np.isfinite(last_c), last_c, lower_cot)
+        # the slope below this run's end (see LOWER_PIECE_DROP): a short lowest piece
+        # counts only where steeper than the run's one line
+        with np.errstate(all="ignore"):
+            end_x = rb * step
+            drop = line_at(a2, b2, xk) - line_at(a2, b2, end_x)
+            c_whole = np.where(whole_b[q] < 0, -1.0 / whole_b[q], np.nan)
+        short_tail = split & ~(drop >= LOWER_PIECE_DROP) & np.isfinite(c_whole)
+        low_c = np.where(short_tail, np.fmin(last_c, c_whole), last_c)
+        lower_cot = np.where(ok & np.isfinite(low_c), low_c, lower_cot)
         steep = np.fmin(steep, np.where(ok, np.fmin(c1, np.where(split, c2, np.nan)), np.nan))
         # this run ends at a berm (its start on the level) or at the toe
         if q < len(berms):
