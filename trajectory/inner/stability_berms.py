@@ -67,30 +67,20 @@ ROUNDS = 4
 CANDIDATE_BATCH = 6
 
 
-def design(offsets: np.ndarray, z: np.ndarray, frame: sb.Frame, soil: sb.Soil,
-           face: np.ndarray, required: np.ndarray, extents: np.ndarray, *,
-           fos_now: np.ndarray, phreatic: str = "line") -> dict:
-    """The least-fill candidate berm over one stretch's stations that reaches ``required``.
+def _design_steps(fos: np.ndarray, fill: np.ndarray, required: np.ndarray,
+                  fos_now: np.ndarray):
+    """One stretch's design as a generator (see :func:`design`).
 
-    The candidates are searched, least fill first and a few at a time, at the few
-    stations with the least factor of safety until one passes there (the least-fill
-    passing one, as if all had been searched); it is then searched at every station,
-    and stations it fails at join the design set (at most :data:`ROUNDS` times).
-    Where no candidate passes, the one coming closest at the design set is given.
+    ``fos`` (stations x candidates, NaN: not searched yet) is filled in by the caller:
+    the generator yields the (station, candidate) pairs it needs next and is resumed
+    once they are in. It returns the chosen candidate and whether it closes the gap.
     """
-    level, width = sb.berm_candidates(frame)
-    n, k = level.shape
-    grid_st, grid_c = np.repeat(np.arange(n), k), np.tile(np.arange(k), n)
-    area = _evaluate(offsets, z, frame, soil, face, level, width, grid_st, grid_c,
-                     phreatic=phreatic, search=False)[1].reshape(n, k)
-    fill = np.nansum(area * extents[:, None], axis=0)
-    fos = np.full((n, k), np.nan)
+    n, k = fos.shape
 
-    def need(st: np.ndarray, cand: np.ndarray) -> None:
+    def need(st: np.ndarray, cand: np.ndarray):
         todo = np.isnan(fos[st, cand])
         if todo.any():
-            fos[st[todo], cand[todo]] = _evaluate(offsets, z, frame, soil, face, level, width,
-                                                  st[todo], cand[todo], phreatic=phreatic)[0]
+            yield st[todo], cand[todo]
 
     order = np.argsort(np.where(np.isfinite(fos_now), fos_now / required, np.inf))
     chosen = order[:DESIGN_STATIONS]
@@ -102,24 +92,92 @@ def design(offsets: np.ndarray, z: np.ndarray, frame: sb.Frame, soil: sb.Soil,
         c = -1
         for s in range(0, k, CANDIDATE_BATCH):
             batch = by_fill[s:s + CANDIDATE_BATCH]
-            need(np.repeat(chosen, batch.size), np.tile(batch, chosen.size))
+            yield from need(np.repeat(chosen, batch.size), np.tile(batch, chosen.size))
             gap = np.nanmin(fos[chosen][:, batch] - required[chosen, None], axis=0)
             if (gap >= 0).any():
                 c = int(batch[np.argmax(gap >= 0)])
                 break
         if c < 0:
             break
-        need(every, np.full(n, c))
+        yield from need(every, np.full(n, c))
         fails = np.flatnonzero(~(fos[:, c] >= required))
         if fails.size == 0:
-            return _pick(level, width, fos, fill, area, c, required, closes=True)
+            return c, True
         worst = fails[np.argsort(fos[fails, c] / required[fails])][:DESIGN_STATIONS]
         chosen = np.union1d(chosen, worst)
     gap = np.nanmin(fos[chosen] - required[chosen, None], axis=0)
     c = int(np.nanargmax(np.where(np.isfinite(gap), gap, -np.inf)))
-    need(every, np.full(n, c))
-    return _pick(level, width, fos, fill, area, c, required,
-                 closes=bool((fos[:, c] >= required).all()))
+    yield from need(every, np.full(n, c))
+    return c, bool((fos[:, c] >= required).all())
+
+
+def design_all(offsets: np.ndarray, z: np.ndarray, frame: sb.Frame, soil: sb.Soil,
+               face: np.ndarray, required: np.ndarray, extents: np.ndarray,
+               stretches: list[np.ndarray], *, fos_now: np.ndarray,
+               phreatic: str = "line") -> list[dict]:
+    """:func:`design` of every stretch (station index arrays into ``z``), side by side.
+
+    Each stretch's design asks for the searches it needs next; those of all stretches
+    are made in one search, so a line with many short stretches costs a few large
+    searches instead of many small ones. The choices are those of designing each
+    stretch alone.
+    """
+    if not stretches:
+        return []
+    level, width = sb.berm_candidates(frame)
+    k = level.shape[1]
+    idx = np.concatenate(stretches)
+    area = np.full(level.shape, np.nan)
+    area[idx] = _evaluate(offsets, z, frame, soil, face, level, width, np.repeat(idx, k),
+                          np.tile(np.arange(k), idx.size), phreatic=phreatic,
+                          search=False)[1].reshape(idx.size, k)
+    fos = [np.full((i.size, k), np.nan) for i in stretches]
+    fills = [np.nansum(area[i] * extents[i, None], axis=0) for i in stretches]
+    steps = {r: _design_steps(fos[r], fills[r], required[i], fos_now[i])
+             for r, i in enumerate(stretches)}
+    chosen: dict[int, tuple[int, bool]] = {}
+    pending: dict[int, tuple[np.ndarray, np.ndarray]] = {}
+
+    def advance(r: int, first: bool) -> None:
+        try:
+            pending[r] = next(steps[r]) if first else steps[r].send(None)
+        except StopIteration as done:
+            chosen[r] = done.value
+            pending.pop(r, None)
+
+    for r in steps:
+        advance(r, True)
+    while pending:
+        asked = list(pending.items())
+        got = _evaluate(offsets, z, frame, soil, face, level, width,
+                        np.concatenate([stretches[r][st] for r, (st, _) in asked]),
+                        np.concatenate([c for _, (_, c) in asked]), phreatic=phreatic)[0]
+        at = 0
+        for r, (st, c) in asked:
+            fos[r][st, c] = got[at:at + st.size]
+            at += st.size
+            advance(r, False)
+    out = []
+    for r, i in enumerate(stretches):
+        c, closes = chosen[r]
+        out.append(_pick(level[i], width[i], fos[r], fills[r], area[i], c, required[i],
+                         closes=closes))
+    return out
+
+
+def design(offsets: np.ndarray, z: np.ndarray, frame: sb.Frame, soil: sb.Soil,
+           face: np.ndarray, required: np.ndarray, extents: np.ndarray, *,
+           fos_now: np.ndarray, phreatic: str = "line") -> dict:
+    """The least-fill candidate berm over one stretch's stations that reaches ``required``.
+
+    The candidates are searched, least fill first and a few at a time, at the few
+    stations with the least factor of safety until one passes there (the least-fill
+    passing one, as if all had been searched); it is then searched at every station,
+    and stations it fails at join the design set (at most :data:`ROUNDS` times).
+    Where no candidate passes, the one coming closest at the design set is given.
+    """
+    return design_all(offsets, z, frame, soil, face, required, extents,
+                      [np.arange(z.shape[0])], fos_now=fos_now, phreatic=phreatic)[0]
 
 
 def _pick(level, width, fos, fill, area, c: int, required: np.ndarray, *, closes: bool) -> dict:
@@ -140,12 +198,11 @@ def plan_berms(stations: pd.DataFrame, offsets: np.ndarray, profiles: np.ndarray
     face = berm_face(stations["inner_slope"].to_numpy(float))
     chainage = stations["chainage"].to_numpy(float)
     fos_now = stations["stability_fos"].to_numpy(float)
+    stretches = [np.arange(a, b + 1) for a, b in runs]
+    designs = design_all(offsets, profiles, frame, soil, face, required, extents, stretches,
+                         fos_now=fos_now, phreatic=phreatic)
     rows = []
-    for a, b in runs:
-        idx = np.arange(a, b + 1)
-        d = design(offsets, np.asarray(profiles[idx], float), frame.take(idx), soil.take(idx),
-                   face[idx], required[idx], extents[idx], fos_now=fos_now[idx],
-                   phreatic=phreatic)
+    for (a, b), idx, d in zip(runs, stretches, designs, strict=True):
         g = idx[d["station"]]
         level, width = d["level"], d["width"]
         zg = fill_gaps(np.asarray(profiles[g:g + 1], float))
