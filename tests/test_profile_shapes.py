@@ -35,6 +35,17 @@ def sampled(shape, *, rows: int = 40, half: float = 50.0, sigma: float = 0.03,
     return z, off
 
 
+def slope_n(z, off, m, *, swl: float, hm0: float) -> np.ndarray:
+    """n of the characteristic outer slope 1:n per row, from the profile reading ``m``."""
+    n = z.shape[0]
+    tan = characteristic_slope(z, off, crest_level=m.crest_level, outer_edge=m.outer_edge,
+                               swl=np.full(n, swl), hm0=np.full(n, hm0),
+                               berm_width=m.outer_berm_width, berm_level=m.outer_berm_level,
+                               outer_toe=m.outer_toe, toe_is_ground=m.outer_toe_dry,
+                               lower_slope=m.outer_lower_slope)
+    return 1.0 / tan
+
+
 def _round(x, z, *, edge: float, crest: float, cot: float, radius: float, sign: int):
     """Round the corner between the crest (level ``crest``) and a 1:cot flank at ``edge``."""
     theta = np.arctan(1.0 / cot)
@@ -72,13 +83,7 @@ def test_rounded_shoulder_above_a_composite_slope():
     # (no period given: the crest is the upper point). SWL 3.5 m, Hm0 1.0 m: from level
     # 2.0 (x = 5 + 2.5 x 3.4 = 13.5 m on the true geometry) to 6.0 (the edge, x = 2 m)
     truth_n = (13.5 - 2.0) / (6.0 - 2.0)
-    n = z.shape[0]
-    tan = characteristic_slope(z, off, crest_level=m.crest_level, outer_edge=m.outer_edge,
-                               swl=np.full(n, 3.5), hm0=np.full(n, 1.0),
-                               berm_width=m.outer_berm_width, berm_level=m.outer_berm_level,
-                               outer_toe=m.outer_toe, toe_is_ground=m.outer_toe_dry,
-                               lower_slope=m.outer_lower_slope)
-    got = 1.0 / tan
+    got = slope_n(z, off, m, swl=3.5, hm0=1.0)
     assert np.abs(got - truth_n).max() <= 0.1
     # never gentler than the truth by more than that (the unsafe side)
     assert (got - truth_n).max() <= 0.1
@@ -228,13 +233,7 @@ def test_a_short_knee_near_the_data_end_does_not_make_the_slope_below_gentler(rs
     z, off = sampled(straight_into_water, rows=200, rs=100 + rs)
     m = read_profiles(z, off, **KW, water_level=3.0)
     assert m.readable.all() and m.outer_water.all()
-    n = z.shape[0]
-    tan = characteristic_slope(z, off, crest_level=m.crest_level, outer_edge=m.outer_edge,
-                               swl=np.full(n, 3.0), hm0=np.full(n, 2.0),
-                               berm_width=m.outer_berm_width, berm_level=m.outer_berm_level,
-                               outer_toe=m.outer_toe, toe_is_ground=m.outer_toe_dry,
-                               lower_slope=m.outer_lower_slope)
-    got = 1.0 / tan
+    got = slope_n(z, off, m, swl=3.0, hm0=2.0)
     assert np.median(got) == pytest.approx(3.0, abs=0.1)
     # the worst station no more than 0.15 gentler than the truth
     assert got.max() <= 3.15
