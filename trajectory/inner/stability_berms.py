@@ -138,15 +138,15 @@ def design_all(offsets: np.ndarray, z: np.ndarray, frame: sb.Frame, soil: sb.Soi
     chosen: dict[int, tuple[int, bool]] = {}
     pending: dict[int, tuple[np.ndarray, np.ndarray]] = {}
 
-    def advance(r: int, first: bool) -> None:
+    def advance(r: int) -> None:
         try:
-            pending[r] = next(steps[r]) if first else steps[r].send(None)
+            pending[r] = next(steps[r])
         except StopIteration as done:
             chosen[r] = done.value
             pending.pop(r, None)
 
     for r in steps:
-        advance(r, True)
+        advance(r)
     while pending:
         asked = list(pending.items())
         got = _evaluate(offsets, z, frame, soil, face, level, width,
@@ -156,7 +156,7 @@ def design_all(offsets: np.ndarray, z: np.ndarray, frame: sb.Frame, soil: sb.Soi
         for r, (st, c) in asked:
             fos[r][st, c] = got[at:at + st.size]
             at += st.size
-            advance(r, False)
+            advance(r)
     out = []
     for r, i in enumerate(stretches):
         c, closes = chosen[r]

@@ -485,8 +485,7 @@ def read_side(s: np.ndarray, meas: np.ndarray, f: np.ndarray, crest: np.ndarray,
         # the slope below this run's end (see LOWER_PIECE_DROP): a short lowest piece
         # counts only where steeper than the run's one line
         with np.errstate(all="ignore"):
-            end_x = rb * step
-            drop = line_at(a2, b2, xk) - line_at(a2, b2, end_x)
+            drop = b2 * (xk - rb * step)
             c_whole = np.where(whole_b[q] < 0, -1.0 / whole_b[q], np.nan)
         short_tail = split & ~(drop >= LOWER_PIECE_DROP) & np.isfinite(c_whole)
         low_c = np.where(short_tail, np.fmin(last_c, c_whole), last_c)
