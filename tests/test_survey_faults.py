@@ -133,3 +133,103 @@ def test_a_truncated_earlier_result_names_the_file(tiled, tmp_path):
     line = _one_line(res, "Error: ")
     assert str(first) in line and "give a complete result GeoPackage" in line
     assert _sums(tmp_path) == before
+
+
+def _tiff(path: Path, **options) -> Path:
+    import numpy as np
+    from rasterio.transform import from_origin
+
+    with rasterio.open(path, "w", driver="GTiff", width=64, height=48, count=1,
+                       dtype="float32", transform=from_origin(0, 48, 1, 1), **options) as ds:
+        ds.write(np.arange(64 * 48, dtype="float32").reshape(1, 48, 64))
+    return path
+
+
+def _gdal_judges(p: Path) -> str:
+    """GDAL (through rasterio) as the reference: ``readable`` (opens georeferenced and reads
+    whole), ``unopenable``, or ``damaged`` (opens, but loses its georeferencing or fails
+    on reading)."""
+    import warnings
+
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("error", rasterio.errors.NotGeoreferencedWarning)
+            ds = rasterio.open(p)
+    except rasterio.errors.NotGeoreferencedWarning:
+        return "damaged"
+    except rasterio.errors.RasterioError:
+        return "unopenable"
+    try:
+        with ds:
+            ds.read(1)
+    except rasterio.errors.RasterioError:
+        return "damaged"
+    return "readable"
+
+
+def _agrees(judged: bool, gdal: str, *where) -> None:
+    """A readable tile must pass, one GDAL cannot open must not; a damaged one may go either
+    way (it fails on reading, which the run flags too)."""
+    if gdal == "readable":
+        assert judged, where
+    elif gdal == "unopenable":
+        assert not judged, where
+
+
+@pytest.mark.parametrize("case", ["classic", "bigtiff", "big_endian", "tiled_deflate",
+                                  "empty", "text", "header_only", "ifd_beyond_end",
+                                  "png_named_tif", "cut_200"])
+def test_the_tile_header_check_agrees_with_gdal_opening_the_tile(tmp_path, case):
+    # the mosaic check judges a GeoTIFF tile by its header (not by opening it, 0.7 ms per
+    # tile); GDAL through rasterio is the reference for whether the tile opens
+    from trajectory.terrain.demread import _opens
+
+    p = tmp_path / "t.tif"
+    if case == "classic":
+        _tiff(p)
+    elif case == "bigtiff":
+        _tiff(p, BIGTIFF="YES")
+    elif case == "big_endian":
+        _tiff(p, ENDIANNESS="BIG")
+    elif case == "tiled_deflate":
+        _tiff(p, tiled=True, blockxsize=16, blockysize=16, compress="deflate")
+    elif case == "empty":
+        p.write_bytes(b"")
+    elif case == "text":
+        p.write_text("not a raster\n")
+    elif case == "header_only":
+        p.write_bytes(_tiff(tmp_path / "whole.tif").read_bytes()[:8])
+    elif case == "cut_200":  # as _cut does to a mosaic's tile
+        p.write_bytes(_tiff(tmp_path / "whole.tif").read_bytes()[:200])
+    elif case == "ifd_beyond_end":
+        data = bytearray(_tiff(tmp_path / "whole.tif").read_bytes())
+        data[4:8] = (len(data) + 100).to_bytes(4, "little")
+        p.write_bytes(bytes(data))
+    else:
+        _tiff(tmp_path / "src.tif")
+        with rasterio.open(tmp_path / "src.tif") as src:
+            prof = src.profile | {"driver": "PNG", "dtype": "uint16"}
+            prof.pop("tiled", None), prof.pop("interleave", None)
+            with rasterio.open(p, "w", **prof) as dst:
+                dst.write(src.read().astype("uint16"))
+    gdal = _gdal_judges(p)
+    assert gdal == ("readable" if case in {"classic", "bigtiff", "big_endian", "tiled_deflate",
+                                           "png_named_tif"}
+                    else "damaged" if case == "cut_200" else "unopenable")
+    _agrees(_opens(p), gdal)
+
+
+@pytest.mark.parametrize("options", [{}, {"BIGTIFF": "YES"}, {"ENDIANNESS": "BIG"},
+                                     {"tiled": True, "blockxsize": 16, "blockysize": 16}])
+def test_a_tile_cut_anywhere_in_its_header_is_judged_as_gdal_judges_it(tmp_path, options):
+    # every length from nothing to past the header's out-of-line values; GDAL through
+    # rasterio is the reference for opening
+    from trajectory.terrain.demread import _opens
+
+    whole = _tiff(tmp_path / "whole.tif", **options).read_bytes()
+    p = tmp_path / "t.tif"
+    for cut in [*range(0, 64, 4), *range(64, 1200, 23)]:
+        p.write_bytes(whole[:cut])
+        _agrees(_opens(p), _gdal_judges(p), cut)
+    p.write_bytes(whole)
+    assert _opens(p) and _gdal_judges(p) == "readable"

@@ -17,14 +17,24 @@ from pathlib import Path
 from ..errors import OutputError
 
 
+def file_identity(p: str | Path) -> tuple[str, tuple[int, int] | None]:
+    """What names one file: its real path (links resolved) and, where it exists, its device
+    and inode (hard links share them)."""
+    try:
+        st = os.stat(p)
+        inode: tuple[int, int] | None = (st.st_dev, st.st_ino)
+    except OSError:  # does not exist yet
+        inode = None
+    return os.path.realpath(p), inode
+
+
 def same_file(a: str | Path, b: str | Path) -> bool:
     """True when ``a`` and ``b`` name one file: same real path (links resolved) or hard links."""
-    if os.path.realpath(a) == os.path.realpath(b):
-        return True
-    try:
-        return os.path.samefile(a, b)
-    except OSError:  # one of them does not exist yet
-        return False
+    return _same(file_identity(a), file_identity(b))
+
+
+def _same(a: tuple[str, tuple[int, int] | None], b: tuple[str, tuple[int, int] | None]) -> bool:
+    return a[0] == b[0] or (a[1] is not None and a[1] == b[1])
 
 
 def _folder_problem(p: Path, role: str) -> str | None:
@@ -61,21 +71,21 @@ def check_targets(outputs: dict[str, Path], inputs: Mapping[str, str | Path]) ->
     OutputError
         The first problem found, naming the path, its role and what to do.
     """
-    for role, p in outputs.items():
+    ins = [(in_role, q, file_identity(q)) for in_role, q in inputs.items()]  # once each
+    outs = [(role, p, file_identity(p)) for role, p in outputs.items()]
+    for role, p, ident in outs:
         problem = _folder_problem(Path(p), role)
         if problem:
             raise OutputError(problem)
-        for in_role, q in inputs.items():
-            if same_file(p, q):
+        for in_role, q, q_ident in ins:
+            if _same(ident, q_ident):
                 raise OutputError(f"{p}: {role} is the input {in_role} ({q}); writing it would "
                                   "destroy the input. Choose another output name")
-    seen: list[tuple[str, Path]] = []
-    for role, p in outputs.items():
-        for other_role, q in seen:
-            if same_file(p, q):
+    for k, (role, p, ident) in enumerate(outs):
+        for other_role, _, other in outs[:k]:
+            if _same(ident, other):
                 raise OutputError(f"{p}: {role} and {other_role} name the same file; one "
                                   "would be lost. Give them different names")
-        seen.append((role, Path(p)))
 
 
 #: errno values of file-system faults a user can act on, and what to say

@@ -184,13 +184,74 @@ def missing_tiles(path: str, *, within: tuple[float, float, float, float] | None
 
 
 def _opens(tile) -> bool:
+    """Whether GDAL can open ``tile``; a TIFF is judged by its header alone.
+
+    Opening costs about 0.7 ms per tile, reading the header a few microseconds
+    (:func:`_tiff_header_ok`); other formats are opened. Damage past the header
+    fails on reading, where the run flags the stations it costs.
+    """
     if not tile.is_file():
         return False
+    judged = _tiff_header_ok(tile)
+    if judged is not None:
+        return judged
     try:
         with rasterio.open(tile):
             return True
     except rasterio.errors.RasterioError:
         return False
+
+
+#: bytes per value of each TIFF field type (TIFF 6.0 section 2; BigTIFF adds 16-18)
+_TIFF_TYPE_BYTES = {1: 1, 2: 1, 3: 2, 4: 4, 5: 8, 6: 1, 7: 1, 8: 2, 9: 4, 10: 8, 11: 4,
+                    12: 8, 13: 4, 16: 8, 17: 8, 18: 8}
+
+
+def _tiff_header_ok(tile) -> bool | None:
+    """Whether a TIFF's header and first IFD lie whole inside the file; None: not a TIFF.
+
+    After the byte order mark (TIFF 6.0 section 2), the version (42 classic, 43
+    BigTIFF), the first IFD and every value it stores out of line must fit in the
+    file: what GDAL's GTiff driver reads on opening.
+    """
+    try:
+        size = tile.stat().st_size
+        with open(tile, "rb") as fh:
+            head = fh.read(16)
+            order = {b"II": "little", b"MM": "big"}.get(head[:2])
+            if order is None:
+                return None
+            if len(head) < 8:
+                return False
+
+            def num(raw: bytes) -> int:
+                return int.from_bytes(raw, order)
+
+            version = num(head[2:4])
+            if version not in (42, 43):
+                return None
+            if version == 42:  # classic: 2-byte entry count, 12-byte entries, 4-byte values
+                ifd, count_len, entry_len, inline = num(head[4:8]), 2, 12, 4
+            elif version == 43 and len(head) == 16:  # BigTIFF: 8, 20, 8
+                ifd, count_len, entry_len, inline = num(head[8:16]), 8, 20, 8
+            else:
+                return False
+            if not 8 <= ifd < size:
+                return False
+            fh.seek(ifd)
+            n = num(fh.read(count_len))
+            entries = fh.read(n * entry_len)
+    except OSError:
+        return False
+    if n == 0 or len(entries) < n * entry_len or ifd + count_len + n * entry_len > size:
+        return False
+    for k in range(0, n * entry_len, entry_len):
+        kind = num(entries[k + 2:k + 4])
+        count = num(entries[k + 4:k + entry_len - inline])
+        length = count * _TIFF_TYPE_BYTES.get(kind, 1)
+        if length > inline and num(entries[k + entry_len - inline:k + entry_len]) + length > size:
+            return False
+    return True
 
 
 def vertical_unit(path: str, band_unit: str | None, crs: object, *,
