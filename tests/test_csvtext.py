@@ -70,3 +70,20 @@ def test_demo_tables_match_pandas(demo_result, which):
         df = stretch_frame(result)
     assert frame_is_plain(df)
     assert _ours(df) == _pandas(df)
+
+
+@pytest.mark.parametrize("kind", ["plain", "with_dates"])
+def test_columns_with_their_own_decimals_match_pandas_formatting_each_column(kind):
+    """Per-column decimals (degrees get 7) give pandas' bytes for the same column formatted
+    with its own float format, on the fast path and on the pandas fallback."""
+    rng = np.random.default_rng(3)
+    lon = rng.uniform(4.0, 6.0, 50)
+    lon[::7] = np.nan
+    df = pd.DataFrame({"lon": lon, "v": rng.normal(0, 3, 50)})
+    if kind == "with_dates":
+        df["when"] = pd.Timestamp("2024-05-06")
+    ref = df.assign(lon=[f"{v:.7f}" if v == v else "" for v in lon])
+    buf = io.StringIO()
+    write_csv(df, buf, decimals=3, column_decimals={"lon": 7})
+    assert buf.getvalue() == _pandas(ref, 3)
+    assert buf.getvalue().splitlines()[2].split(",")[0] == f"{lon[1]:.7f}"  # row 0 is NaN

@@ -43,11 +43,19 @@ def _column_text(col: pd.Series, fmt: str) -> list[str] | None:
     return None
 
 
-def write_csv(df: pd.DataFrame, fh: TextIO, *, decimals: int = 4) -> None:
-    """Write ``df`` (header, no index) to the open text file ``fh`` as CSV."""
+def write_csv(df: pd.DataFrame, fh: TextIO, *, decimals: int = 4,
+              column_decimals: dict[str, int] | None = None) -> None:
+    """Write ``df`` (header, no index) to the open text file ``fh`` as CSV.
+
+    Floats get ``decimals`` decimals, or those ``column_decimals`` gives their column.
+    """
     fmt = f"%.{decimals}f"
-    cols = [_column_text(df[c], fmt) for c in df.columns]
+    own = {c: f"%.{d}f" for c, d in (column_decimals or {}).items()}
+    cols = [_column_text(df[c], own.get(c, fmt)) for c in df.columns]
     if any(c is None for c in cols) or not df.columns.is_unique:
+        if own:  # pandas takes one float format: these columns get their text first
+            df = df.assign(**{c: _column_text(df[c], f) for c, f in own.items()
+                              if c in df and df[c].dtype.kind == "f"})
         df.to_csv(fh, index=False, float_format=fmt, lineterminator="\n")  # rare kinds
         return
     fh.write(",".join(_quote(str(c)) for c in df.columns) + "\n")

@@ -31,20 +31,12 @@ def _csv_cell(text: str) -> str:
     return f'"{text}"' if "," in text or '"' in text else text
 
 
-def _degrees_as_text(df):
-    """Columns in degrees written with :data:`DEGREE_DECIMALS` (the table's 4 are ~10 m)."""
-    import numpy as np
-
+def _degree_decimals(df) -> dict[str, int]:
+    """Columns in degrees, written with :data:`DEGREE_DECIMALS` (the table's 4 are ~10 m)."""
     from .schema import LAYERS
 
-    deg = [f.name for f in LAYERS["stations"][1] if f.unit == "degrees" and f.name in df]
-    if not deg:
-        return df
-    df = df.copy()
-    for c in deg:
-        v = df[c].to_numpy(float)
-        df[c] = np.where(np.isfinite(v), np.char.mod(f"%.{DEGREE_DECIMALS}f", v), "")
-    return df
+    return {f.name: DEGREE_DECIMALS for f in LAYERS["stations"][1]
+            if f.unit == "degrees" and f.name in df}
 
 
 def write_deficit_table(result, path: str | Path, *, overwrite: bool = False) -> Path:
@@ -56,7 +48,7 @@ def write_deficit_table(result, path: str | Path, *, overwrite: bool = False) ->
             if result.metadata.get("incomplete"):  # a partial result must say so (issue 7)
                 fh.write(f"# INCOMPLETE, DEM unreadable for: {result.metadata['incomplete']}\n")
             fh.write(units_line(df.columns, "stations"))
-            write_csv(_degrees_as_text(df), fh, decimals=4)
+            write_csv(df, fh, decimals=4, column_decimals=_degree_decimals(df))
     return Path(path)
 
 
