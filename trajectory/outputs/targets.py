@@ -28,12 +28,8 @@ def file_identity(p: str | Path) -> tuple[str, tuple[int, int] | None]:
     return os.path.realpath(p), inode
 
 
-def same_file(a: str | Path, b: str | Path) -> bool:
-    """True when ``a`` and ``b`` name one file: same real path (links resolved) or hard links."""
-    return _same(file_identity(a), file_identity(b))
-
-
 def _same(a: tuple[str, tuple[int, int] | None], b: tuple[str, tuple[int, int] | None]) -> bool:
+    """One file: the same real path, or hard links (same device and inode)."""
     return a[0] == b[0] or (a[1] is not None and a[1] == b[1])
 
 

@@ -243,7 +243,7 @@ def _tiff_header_ok(tile) -> bool | None:
             entries = fh.read(n * entry_len)
     except OSError:
         return False
-    if n == 0 or len(entries) < n * entry_len or ifd + count_len + n * entry_len > size:
+    if n == 0 or len(entries) < n * entry_len:  # the IFD runs past the file's end
         return False
     for k in range(0, n * entry_len, entry_len):
         kind = num(entries[k + 2:k + 4])
